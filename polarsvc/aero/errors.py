@@ -1,0 +1,79 @@
+"""Typed errors of the numeric core.
+
+Tree::
+
+    AeroError (ValueError)
+    +-- PolarValidationError      a table is malformed; names the row and field
+    +-- InsufficientDataError     fewer points than a method needs
+    +-- UnknownMethodError        a method name not in the list of valid names
+    +-- ParameterError            a parameter is out of its range; names the parameter
+    +-- OutOfRangeError           a Reynolds number or thickness outside the data
+"""
+
+from __future__ import annotations
+
+
+class AeroError(ValueError):
+    """Base class of every error raised by :mod:`polarsvc.aero`."""
+
+
+class PolarValidationError(AeroError):
+    """A section table is malformed.
+
+    Attributes
+    ----------
+    row : int or None
+        Zero-based index of the offending row in the table as given (before sorting).
+    field : str or None
+        Name of the offending column (``alpha_deg``, ``cl``, ``cd``, ``cm``) or condition.
+    """
+
+    def __init__(self, message: str, *, row: int | None = None, field: str | None = None):
+        self.row = row
+        self.field = field
+        where = []
+        if row is not None:
+            where.append(f"row {row}")
+        if field is not None:
+            where.append(f"field '{field}'")
+        prefix = f"{', '.join(where)}: " if where else ""
+        super().__init__(prefix + message)
+        self.detail = message
+
+
+class InsufficientDataError(AeroError):
+    """A method needs more points (or more polars) than were given."""
+
+
+class UnknownMethodError(AeroError):
+    """A method or model name is not one of the valid names (listed in the message)."""
+
+    def __init__(self, parameter: str, value: object, valid: tuple[str, ...]):
+        self.parameter = parameter
+        self.value = value
+        self.valid = valid
+        super().__init__(
+            f"{parameter}={value!r} is not known; valid names: {', '.join(valid)}"
+        )
+
+
+class ParameterError(AeroError):
+    """A parameter is outside its valid range."""
+
+    def __init__(self, parameter: str, message: str):
+        self.parameter = parameter
+        super().__init__(f"parameter '{parameter}': {message}")
+
+
+class OutOfRangeError(AeroError):
+    """A requested Reynolds number or thickness lies outside the data and clamping was not asked."""
+
+    def __init__(self, parameter: str, value: float, low: float, high: float):
+        self.parameter = parameter
+        self.value = value
+        self.low = low
+        self.high = high
+        super().__init__(
+            f"{parameter}={value:g} lies outside the data range [{low:g}, {high:g}]; "
+            "pass clamp=True to use the nearest member (the result records the clamp)"
+        )
