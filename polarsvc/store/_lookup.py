@@ -1,0 +1,83 @@
+"""Small helpers shared by the storage modules: allowed-value checks and hash-key lookup."""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Sequence
+from typing import Any, TypeVar
+
+from sqlalchemy import func, or_, select
+from sqlalchemy.orm import Session
+
+from polarsvc.store.errors import AmbiguousKey, InvalidValue, NotFound
+
+MIN_PREFIX_LENGTH = 8
+_HEX = re.compile(r"[0-9a-f]+")
+
+Row = TypeVar("Row")
+
+
+def check_choice(field: str, value: str, allowed: tuple[str, ...]) -> str:
+    """Return ``value`` if it is one of ``allowed``, else raise :class:`InvalidValue`."""
+    if value not in allowed:
+        raise InvalidValue(field, f"{value!r} is not one of {', '.join(allowed)}")
+    return value
+
+
+def check_name(field: str, value: str, max_length: int) -> str:
+    """Refuse empty, padded or over-long names (the name is kept literally otherwise)."""
+    if not isinstance(value, str) or not value or value != value.strip():
+        raise InvalidValue(field, f"{value!r} must be a non-empty string without outer spaces")
+    if len(value) > max_length:
+        raise InvalidValue(field, f"longer than {max_length} characters")
+    return value
+
+
+def escape_like(text: str) -> str:
+    """Escape LIKE wildcards (with ``\\`` as the escape character)."""
+    return text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+
+
+def find_by_hash(
+    session: Session,
+    model: type[Row],
+    kind: str,
+    key: str,
+    columns: Sequence[str] = ("content_hash",),
+) -> Row:
+    """The row of ``model`` whose hash column(s) equal ``key`` or start with it.
+
+    Parameters
+    ----------
+    columns : sequence of str
+        Names of the hash columns searched (a row matches if any of them does).
+
+    Raises
+    ------
+    InvalidValue
+        If ``key`` is not hexadecimal, or a prefix shorter than 8 digits.
+    NotFound
+        If nothing matches.
+    AmbiguousKey
+        If more than one row matches.
+    """
+    targets: list[Any] = [getattr(model, name) for name in columns]
+    normalised = key.strip().lower() if isinstance(key, str) else ""
+    if not _HEX.fullmatch(normalised) or len(normalised) > 64:
+        raise InvalidValue("content_hash", f"{key!r} is not a hexadecimal hash or prefix")
+    if len(normalised) == 64:
+        condition = or_(*(column == normalised for column in targets))
+    elif len(normalised) < MIN_PREFIX_LENGTH:
+        raise InvalidValue(
+            "content_hash", f"a prefix needs at least {MIN_PREFIX_LENGTH} digits, got {key!r}"
+        )
+    else:
+        # hexadecimal digits contain no LIKE wildcards, so no escaping is needed here
+        condition = or_(*(column.like(normalised + "%") for column in targets))
+    rows = session.scalars(select(model).where(condition).limit(2)).all()
+    if not rows:
+        raise NotFound(kind, key)
+    if len(rows) > 1:
+        count = session.scalar(select(func.count()).select_from(model).where(condition))
+        raise AmbiguousKey(kind, key, int(count or 0))
+    return rows[0]

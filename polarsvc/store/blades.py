@@ -1,0 +1,115 @@
+"""Blade definitions: immutable revisions keyed by content hash."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.exc import IntegrityError
+from sqlalchemy.orm import Session
+
+from polarsvc.hashing import blade_content_hash, canonical_json
+from polarsvc.store._lookup import check_name, find_by_hash
+from polarsvc.store.audit import Actor, record_event
+from polarsvc.store.errors import InvalidValue, NotFound
+from polarsvc.store.models import NAME_LENGTH, BladeDefinition
+
+
+def store_blade(
+    session: Session, *, name: str, definition: Mapping[str, Any], actor: Actor
+) -> tuple[BladeDefinition, bool]:
+    """Store a blade definition revision, or return the identical stored one.
+
+    Parameters
+    ----------
+    name : str
+        The blade's name; several revisions may share it.
+    definition : mapping
+        JSON-able description (stations, radii [m], chords [m], airfoils...); stored as
+        canonical JSON (:func:`polarsvc.hashing.canonical_json`).
+
+    Returns
+    -------
+    (BladeDefinition, bool)
+        The revision and whether it was created.
+
+    Raises
+    ------
+    InvalidValue
+        If the definition cannot be written as canonical JSON (NaN, unsupported types).
+    """
+    check_name("name", name, NAME_LENGTH)
+    try:
+        text = canonical_json(dict(definition)).decode("utf-8")
+        content_hash = blade_content_hash(name=name, definition=definition)
+    except (TypeError, ValueError) as exc:
+        raise InvalidValue("definition", str(exc)) from None
+    existing = _by_full_hash(session, content_hash)
+    if existing is not None:
+        return existing, False
+    blade = BladeDefinition(
+        name=name, content_hash=content_hash, definition=text, created_by=actor.name
+    )
+    try:
+        with session.begin_nested():
+            session.add(blade)
+    except IntegrityError:
+        winner = _by_full_hash(session, content_hash)
+        if winner is None:
+            raise
+        return winner, False
+    record_event(
+        session,
+        actor=actor,
+        action="blade.store",
+        object_kind="blade_definition",
+        object_key=content_hash,
+        after_hash=content_hash,
+        detail={"name": name},
+    )
+    return blade, True
+
+
+def _by_full_hash(session: Session, content_hash: str) -> BladeDefinition | None:
+    return session.scalars(
+        select(BladeDefinition).where(BladeDefinition.content_hash == content_hash)
+    ).one_or_none()
+
+
+def blade_definition(blade: BladeDefinition) -> dict[str, Any]:
+    """The stored definition as a mapping."""
+    return json.loads(blade.definition)
+
+
+def recompute_blade_hash(blade: BladeDefinition) -> str:
+    """The content hash recomputed from the stored name and definition (equal to
+    ``blade.content_hash`` unless the stored row was altered)."""
+    return blade_content_hash(name=blade.name, definition=blade_definition(blade))
+
+
+def get_blade(session: Session, key: str) -> BladeDefinition:
+    """The blade revision whose hash is ``key`` or starts with it (at least 8 digits)."""
+    return find_by_hash(session, BladeDefinition, "blade definition", key)
+
+
+def latest_blade(session: Session, name: str) -> BladeDefinition:
+    """The most recently stored revision of the blade called ``name``."""
+    blade = session.scalars(
+        select(BladeDefinition)
+        .where(BladeDefinition.name == name)
+        .order_by(BladeDefinition.id.desc())
+        .limit(1)
+    ).first()
+    if blade is None:
+        raise NotFound("blade", name)
+    return blade
+
+
+def list_blades(session: Session, *, name: str | None = None) -> Sequence[BladeDefinition]:
+    """Blade revisions by name then storage order, optionally of one name."""
+    statement = select(BladeDefinition)
+    if name is not None:
+        statement = statement.where(BladeDefinition.name == name)
+    return session.scalars(statement.order_by(BladeDefinition.name, BladeDefinition.id)).all()

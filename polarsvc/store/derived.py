@@ -1,0 +1,239 @@
+"""The derived-table cache, keyed by recipe hash, with its lineage in both directions."""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from sqlalchemy import select
+from sqlalchemy.exc import IntegrityError
+from sqlalchemy.orm import Session
+
+from polarsvc.hashing import (
+    canonical_array_bytes,
+    canonical_json,
+    decode_array_bytes,
+    recipe_hash,
+    table_content_hash,
+)
+from polarsvc.store._lookup import check_choice, find_by_hash
+from polarsvc.store.audit import Actor, record_event
+from polarsvc.store.errors import IntegrityProblem, InvalidValue, NotFound
+from polarsvc.store.models import (
+    DERIVED_KINDS,
+    BladeDefinition,
+    DerivedInput,
+    DerivedTable,
+    PolarRevision,
+)
+
+
+def get_derived(session: Session, *, recipe_hash: str) -> DerivedTable | None:
+    """The cached table of this recipe hash, or None (a cache miss)."""
+    return session.scalars(
+        select(DerivedTable).where(DerivedTable.recipe_hash == recipe_hash)
+    ).one_or_none()
+
+
+def _stack(
+    alpha_deg: ArrayLike, columns: Mapping[str, ArrayLike]
+) -> tuple[NDArray[np.float64], list[NDArray[np.float64]], NDArray[np.float64]]:
+    alpha = np.asarray(alpha_deg, dtype=np.float64)
+    if alpha.ndim != 1 or alpha.size < 2:
+        raise InvalidValue("alpha_deg", f"expected >= 2 angles in one dimension, got {alpha.shape}")
+    if not columns:
+        raise InvalidValue("columns", "at least one coefficient column is needed")
+    arrays = [np.asarray(value, dtype=np.float64) for value in columns.values()]
+    shape = arrays[0].shape
+    for name, array in zip(columns, arrays, strict=True):
+        if array.shape != shape or array.shape[-1:] != alpha.shape:
+            raise InvalidValue(
+                name, f"shape {array.shape} differs from {shape} or does not end with {alpha.size}"
+            )
+    stacked = np.stack([np.broadcast_to(alpha, shape), *arrays])
+    return alpha, arrays, stacked
+
+
+def put_derived(
+    session: Session,
+    *,
+    recipe: Mapping[str, Any],
+    kind: str,
+    alpha_deg: ArrayLike,
+    columns: Mapping[str, ArrayLike],
+    input_revision_ids: Sequence[int],
+    blade_id: int | None = None,
+    reports: Mapping[str, Any] | None = None,
+    actor: Actor,
+) -> tuple[DerivedTable, bool]:
+    """Cache a derived table under its recipe hash (idempotent).
+
+    Parameters
+    ----------
+    recipe : mapping
+        The recipe that produced the table; its hash is the cache key.
+    kind : str
+        One of :data:`~polarsvc.store.models.DERIVED_KINDS`; must equal ``recipe["kind"]``
+        when the recipe has that key.
+    alpha_deg : array_like
+        Angle of attack [deg], one-dimensional.
+    columns : mapping of str to array_like
+        Coefficient arrays (e.g. ``cl``, ``cd``, ``cm``), all of one shape ending with the
+        number of angles (1-D, or stations x angles for a blade set).
+    input_revision_ids : sequence of int
+        Ids of the stored revisions the table was computed from.
+    blade_id : int, optional
+        The blade definition revision of a blade set.
+    reports : mapping, optional
+        What the steps reported; stored as JSON text (non-finite numbers as null), not
+        hashed.
+
+    Returns
+    -------
+    (DerivedTable, bool)
+        The cached row and whether it was created. A concurrent put of the same recipe
+        leaves one row.
+
+    Raises
+    ------
+    IntegrityProblem
+        If the recipe is cached with different content (a recipe must be deterministic).
+    InvalidValue, NotFound
+        On bad arrays or kind, or unknown input revisions or blade.
+    """
+    check_choice("kind", kind, DERIVED_KINDS)
+    if "kind" in recipe and recipe["kind"] != kind:
+        raise InvalidValue("kind", f"{kind!r} differs from the recipe's {recipe['kind']!r}")
+    alpha, arrays, stacked = _stack(alpha_deg, columns)
+    key = recipe_hash(recipe)
+    content_hash = table_content_hash(alpha, *arrays)
+    existing = get_derived(session, recipe_hash=key)
+    if existing is not None:
+        return _same_content(existing, content_hash), False
+    input_ids = sorted({int(i) for i in input_revision_ids})
+    found = set(
+        session.scalars(select(PolarRevision.id).where(PolarRevision.id.in_(input_ids))).all()
+    )
+    missing = [i for i in input_ids if i not in found]
+    if missing:
+        raise NotFound("polar revision id", missing[0])
+    if blade_id is not None and session.get(BladeDefinition, blade_id) is None:
+        raise NotFound("blade definition id", blade_id)
+    table = DerivedTable(
+        recipe_hash=key,
+        kind=kind,
+        recipe=canonical_json(recipe).decode("utf-8"),
+        content_hash=content_hash,
+        payload=canonical_array_bytes(stacked),
+        payload_shape=canonical_json(
+            {"columns": list(columns), "shape": list(stacked.shape)}
+        ).decode("utf-8"),
+        blade_id=blade_id,
+        reports=None if reports is None else _reports_text(reports),
+    )
+    try:
+        with session.begin_nested():
+            session.add(table)
+            session.flush()
+            session.add_all(DerivedInput(derived_id=table.id, polar_id=i) for i in input_ids)
+    except IntegrityError:
+        winner = get_derived(session, recipe_hash=key)
+        if winner is None:
+            raise
+        return _same_content(winner, content_hash), False
+    record_event(
+        session,
+        actor=actor,
+        action="derived.store",
+        object_kind="derived_table",
+        object_key=key,
+        after_hash=content_hash,
+        detail={"kind": kind, "inputs": input_ids, "blade_id": blade_id},
+    )
+    return table, True
+
+
+def _finite_or_none(value: Any) -> Any:
+    if isinstance(value, np.ndarray):
+        return _finite_or_none(value.tolist())
+    if isinstance(value, (float, np.floating)):
+        return float(value) if np.isfinite(value) else None
+    if isinstance(value, Mapping):
+        return {str(k): _finite_or_none(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite_or_none(v) for v in value]
+    return value
+
+
+def _reports_text(reports: Mapping[str, Any]) -> str:
+    try:
+        return canonical_json(_finite_or_none(reports)).decode("utf-8")
+    except (TypeError, ValueError) as exc:
+        raise InvalidValue("reports", str(exc)) from None
+
+
+def find_derived(session: Session, key: str) -> DerivedTable:
+    """A cached table by recipe hash or content hash: the full hash or a unique prefix of at
+    least 8 digits.
+
+    Raises
+    ------
+    NotFound, AmbiguousKey, InvalidValue
+        Several recipes can give the same content: a content hash shared by two cached
+        tables is ambiguous, use the recipe hash.
+    """
+    return find_by_hash(
+        session, DerivedTable, "derived table", key, columns=("recipe_hash", "content_hash")
+    )
+
+
+def _same_content(table: DerivedTable, content_hash: str) -> DerivedTable:
+    if table.content_hash != content_hash:
+        raise IntegrityProblem(
+            f"recipe {table.recipe_hash} is cached with content {table.content_hash}, "
+            f"now computed as {content_hash}: the derivation is not deterministic"
+        )
+    return table
+
+
+def derived_recipe(table: DerivedTable) -> dict[str, Any]:
+    """The stored recipe as a mapping."""
+    return json.loads(table.recipe)
+
+
+def derived_arrays(
+    table: DerivedTable,
+) -> tuple[NDArray[np.float64], dict[str, NDArray[np.float64]]]:
+    """The cached angles [deg] and named coefficient arrays, checked against the content
+    hash.
+
+    Raises
+    ------
+    IntegrityProblem
+        If the payload does not fit its shape or no longer hashes to ``content_hash``.
+    """
+    layout = json.loads(table.payload_shape)
+    shape = tuple(int(n) for n in layout["shape"])
+    try:
+        stacked = decode_array_bytes(bytes(table.payload), shape)
+    except ValueError as exc:
+        raise IntegrityProblem(f"derived table {table.recipe_hash}: {exc}") from None
+    alpha = stacked[0].reshape(-1, shape[-1])[0].copy()
+    columns = {name: stacked[i + 1] for i, name in enumerate(layout["columns"])}
+    if table_content_hash(alpha, *columns.values()) != table.content_hash:
+        raise IntegrityProblem(f"derived table {table.recipe_hash}: payload hash mismatch")
+    return alpha, columns
+
+
+def derived_using_revision(session: Session, *, revision_id: int) -> Sequence[DerivedTable]:
+    """Reverse lineage: the cached tables computed from this revision, oldest first."""
+    statement = (
+        select(DerivedTable)
+        .join(DerivedInput, DerivedInput.derived_id == DerivedTable.id)
+        .where(DerivedInput.polar_id == revision_id)
+        .order_by(DerivedTable.id)
+    )
+    return session.scalars(statement).all()
