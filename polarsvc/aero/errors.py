@@ -12,6 +12,20 @@ Tree::
 
 from __future__ import annotations
 
+import math
+
+
+def show_value(value: object) -> str:
+    """Text for a value inside an error message; a not-a-number value is written
+    ``'undefined (not a number)'`` so that no message ever carries that literal."""
+    try:
+        number = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return "a non-numeric value"
+    if math.isnan(number):
+        return "undefined (not a number)"
+    return f"{number:g}"
+
 
 class AeroError(ValueError):
     """Base class of every error raised by :mod:`polarsvc.aero`."""
@@ -52,9 +66,8 @@ class UnknownMethodError(AeroError):
         self.parameter = parameter
         self.value = value
         self.valid = valid
-        super().__init__(
-            f"{parameter}={value!r} is not known; valid names: {', '.join(valid)}"
-        )
+        shown = value if isinstance(value, str) else show_value(value)
+        super().__init__(f"{parameter}={shown!r} is not known; valid names: {', '.join(valid)}")
 
 
 class ParameterError(AeroError):
@@ -74,6 +87,7 @@ class OutOfRangeError(AeroError):
         self.low = low
         self.high = high
         super().__init__(
-            f"{parameter}={value:g} lies outside the data range [{low:g}, {high:g}]; "
+            f"{parameter}={show_value(value)} lies outside the data range "
+            f"[{show_value(low)}, {show_value(high)}]; "
             "pass clamp=True to use the nearest member (the result records the clamp)"
         )

@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from polarsvc.aero.errors import ParameterError, PolarValidationError
+from polarsvc.aero.errors import ParameterError, PolarValidationError, show_value
 
 SURFACE_CONDITIONS: tuple[str, ...] = ("clean", "tripped", "rough")
 """Valid surface conditions; part of a polar's identity (common practice, no source)."""
@@ -31,7 +31,9 @@ def _as_float_column(values: ArrayLike, name: str) -> FloatArray:
     try:
         array = np.array(values, dtype=np.float64, copy=True)
     except (TypeError, ValueError) as exc:
-        raise PolarValidationError(f"values are not numbers ({exc})", field=name) from None
+        raise PolarValidationError(
+            f"values are not numbers ({type(exc).__name__})", field=name
+        ) from None
     if array.ndim != 1:
         raise PolarValidationError(
             f"expected a one-dimensional column, got shape {array.shape}", field=name
@@ -43,7 +45,9 @@ def _check_finite(array: FloatArray, name: str) -> None:
     bad = np.flatnonzero(~np.isfinite(array))
     if bad.size:
         raise PolarValidationError(
-            f"value {array[bad[0]]!r} is not finite", row=int(bad[0]), field=name
+            f"value {show_value(float(array[bad[0]]))} is not finite",
+            row=int(bad[0]),
+            field=name,
         )
 
 
@@ -250,12 +254,14 @@ def _check_conditions(
     reynolds: float | None, mach: float, thickness: float | None, surface: str
 ) -> None:
     if reynolds is not None and not (np.isfinite(reynolds) and reynolds > 0):
-        raise ParameterError("reynolds", f"must be a positive finite number, got {reynolds!r}")
+        raise ParameterError(
+            "reynolds", f"must be a positive finite number, got {show_value(reynolds)}"
+        )
     if not (np.isfinite(mach) and 0.0 <= mach < 1.0):
-        raise ParameterError("mach", f"must lie in [0, 1), got {mach!r}")
+        raise ParameterError("mach", f"must lie in [0, 1), got {show_value(mach)}")
     if thickness is not None and not (np.isfinite(thickness) and 0.0 < thickness <= 1.0):
         hint = " (give thickness as a fraction, e.g. 0.21 for 21 %)" if thickness > 1 else ""
-        raise ParameterError("thickness", f"must lie in (0, 1], got {thickness!r}{hint}")
+        raise ParameterError("thickness", f"must lie in (0, 1], got {show_value(thickness)}{hint}")
     if surface not in SURFACE_CONDITIONS:
         raise ParameterError(
             "surface", f"{surface!r} is not one of {', '.join(SURFACE_CONDITIONS)}"

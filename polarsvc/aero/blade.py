@@ -1,0 +1,439 @@
+"""Section tables for every station of a blade, vectorised over stations and angles.
+
+Pipeline of :func:`build_blade_tables`:
+
+Steps 1-3 (:func:`prepare_family`, reusable across blades):
+
+1. keep the family members of the requested surface condition;
+2. extend each member once to -180..180 deg (:func:`~polarsvc.aero.extension.extend_full_range`);
+3. resample each once onto the common uniform grid (:func:`~polarsvc.aero.resample.resample`);
+Steps 4-6 (:func:`build_blade_tables`):
+
+4. per thickness member: the log10 Re weights of every station
+   (:func:`~polarsvc.aero.interpolation.bracket_weights`, as a weight matrix);
+5. thickness: linear -- each station's two thickness neighbours times their two Reynolds
+   neighbours give four weighted member tables, summed by the combination kernel of
+   :func:`~polarsvc.aero.interpolation.interpolate_reynolds` and
+   :func:`~polarsvc.aero.interpolation.interpolate_thickness` (steps 4-5 at once);
+   PCHIP -- Reynolds interpolation per thickness, then the PCHIP kernel of
+   :func:`~polarsvc.aero.interpolation.interpolate_thickness` over all stations;
+6. rotational augmentation of every station at once (the kernel of
+   :func:`~polarsvc.aero.rotation.augment_rotation`).
+
+Steps 4-6 run as numpy operations over (stations x angles); the only Python loop is over the
+few thickness members. Each step uses the same kernel as the scalar function of the same
+name, so the tables equal the station-by-station chain of scalar calls.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from polarsvc.aero.characteristics import _lift_line_arrays
+from polarsvc.aero.errors import (
+    InsufficientDataError,
+    ParameterError,
+    UnknownMethodError,
+    show_value,
+)
+from polarsvc.aero.extension import extend_full_range
+from polarsvc.aero.interpolation import (
+    THICKNESS_METHODS,
+    _combine,
+    _pairs,
+    _pchip_blend,
+    bracket_weights,
+)
+from polarsvc.aero.polar import Polar
+from polarsvc.aero.resample import resample, uniform_grid
+from polarsvc.aero.rotation import (
+    ROTATION_MODELS,
+    _augment_arrays,
+    _model_factors,
+    _override_slope,
+    fade_weight,
+)
+
+FloatArray = NDArray[np.float64]
+
+ISA_DENSITY_KG_M3 = 1.225
+ISA_VISCOSITY_PA_S = 1.789e-5
+"""ISA sea level, ISO 2533:1975 (from memory)."""
+
+
+def station_reynolds(
+    radius_m: ArrayLike,
+    chord_m: ArrayLike,
+    wind_speed_m_s: float,
+    rotor_speed_rpm: float,
+    rho_kg_m3: float = ISA_DENSITY_KG_M3,
+    mu_pa_s: float = ISA_VISCOSITY_PA_S,
+) -> FloatArray:
+    """Chord Reynolds number at blade stations without induction.
+
+    ``Re = rho W c / mu`` with ``W = sqrt(U^2 + (Omega r)^2)``, ``Omega = 2 pi rpm / 60``.
+
+    Parameters
+    ----------
+    radius_m, chord_m : array_like
+        Station radius and chord [m].
+    wind_speed_m_s : float
+        Free-stream wind speed U [m/s].
+    rotor_speed_rpm : float
+        Rotor speed [rpm].
+    rho_kg_m3, mu_pa_s : float
+        Air density [kg/m^3] and dynamic viscosity [Pa s]; ISA sea level (ISO 2533, from
+        memory) by default.
+    """
+    radius = np.asarray(radius_m, dtype=np.float64)
+    chord = np.asarray(chord_m, dtype=np.float64)
+    for name, value in (("rho_kg_m3", rho_kg_m3), ("mu_pa_s", mu_pa_s)):
+        if not (math.isfinite(value) and value > 0.0):
+            raise ParameterError(name, f"must be positive, got {show_value(value)}")
+    if not np.all(np.isfinite(chord) & (chord > 0.0)):
+        raise ParameterError("chord_m", "must be positive")
+    if not np.all(np.isfinite(radius) & (radius >= 0.0)):
+        raise ParameterError("radius_m", "must be non-negative")
+    omega = 2.0 * math.pi * float(rotor_speed_rpm) / 60.0
+    speed = np.sqrt(float(wind_speed_m_s) ** 2 + (omega * radius) ** 2)
+    return rho_kg_m3 * speed * chord / mu_pa_s
+
+
+@dataclass(frozen=True)
+class BladeStations:
+    """Blade stations: radius [m], chord [m], twist [deg], t/c [-] and chord Reynolds number
+    [-], each an array of one length."""
+
+    radius_m: FloatArray
+    chord_m: FloatArray
+    twist_deg: FloatArray
+    thickness: FloatArray
+    reynolds: FloatArray
+
+    def __post_init__(self) -> None:
+        names = ("radius_m", "chord_m", "twist_deg", "thickness", "reynolds")
+        arrays = {n: np.atleast_1d(np.asarray(getattr(self, n), dtype=np.float64)) for n in names}
+        size = arrays["radius_m"].size
+        for name, array in arrays.items():
+            if array.ndim != 1 or array.size != size:
+                raise ParameterError(name, f"must have one value per station ({size})")
+            if not np.all(np.isfinite(array)):
+                raise ParameterError(name, "must be finite")
+            object.__setattr__(self, name, array)
+        for name in ("radius_m", "chord_m", "reynolds", "thickness"):
+            if np.any(arrays[name] <= 0.0):
+                raise ParameterError(name, "must be positive")
+
+    @property
+    def size(self) -> int:
+        """Number of stations."""
+        return int(self.radius_m.size)
+
+
+@dataclass(frozen=True)
+class BladeTables:
+    """Tables at every station: ``cl``, ``cd`` and ``cm`` (or ``None``) of shape
+    ``(n_stations, n_angles)`` on ``alpha_deg`` [deg]; ``stations`` holds one report per
+    station (used thickness and Reynolds numbers, clamps, weights, rotation factors; mapping
+    keys are member values as text, so reports serialise to JSON); ``recipe`` the settings."""
+
+    alpha_deg: FloatArray
+    cl: FloatArray
+    cd: FloatArray
+    cm: FloatArray | None
+    stations: tuple[dict[str, Any], ...]
+    recipe: dict[str, Any] = field(default_factory=dict)
+
+
+def _as_stations(stations: BladeStations | Mapping[str, ArrayLike] | Any) -> BladeStations:
+    if isinstance(stations, BladeStations):
+        return stations
+    names = ("radius_m", "chord_m", "twist_deg", "thickness", "reynolds")
+    if isinstance(stations, Mapping):
+        missing = [n for n in names if n not in stations]
+        if missing:
+            raise ParameterError("stations", f"missing {', '.join(missing)}")
+        return BladeStations(**{n: stations[n] for n in names})
+    return BladeStations(**{n: getattr(stations, n) for n in names})
+
+
+@dataclass(frozen=True)
+class PreparedFamily:
+    """Family members of one surface condition, extended to -180..180 deg and resampled onto
+    one grid (steps 1-3 of the pipeline), ready for any number of blades.
+
+    ``tables`` ``(m, n_columns, n_angles)`` holds the members ordered by thickness, then
+    Reynolds number; ``groups`` holds per thickness in ``thicknesses`` (increasing) the
+    increasing Reynolds numbers and the slice of ``tables`` of its members.
+    """
+
+    alpha_deg: FloatArray
+    thicknesses: FloatArray
+    groups: tuple[tuple[FloatArray, slice], ...]
+    tables: FloatArray
+    columns: tuple[str, ...]
+    recipe: dict[str, Any]
+
+
+def prepare_family(
+    members: Sequence[Polar],
+    *,
+    grid_step_deg: float = 0.5,
+    surface: str = "clean",
+    extension_method: str = "viterna",
+    aspect_ratio: float | None = None,
+    cd_max: float | None = None,
+    trailing_edge_lift_factor: float = 0.7,
+    extension_step_deg: float = 1.0,
+) -> PreparedFamily:
+    """Steps 1-3 of the pipeline: filter by surface condition, extend each member once
+    (:func:`~polarsvc.aero.extension.extend_full_range`, same keywords) and resample each
+    once onto the uniform grid of ``grid_step_deg`` [deg] over -180..180.
+
+    Raises
+    ------
+    InsufficientDataError
+        No member of the surface condition.
+    ParameterError
+        A member without thickness or Reynolds number; two members at the same pair.
+    """
+    chosen = [p for p in members if p.surface == surface]
+    if not chosen:
+        raise InsufficientDataError(f"no family member has surface condition {surface!r}")
+    for index, p in enumerate(chosen):
+        if p.thickness is None or p.reynolds is None:
+            raise ParameterError("members", f"member {index} lacks thickness or Reynolds number")
+    grid = uniform_grid(grid_step_deg)
+    tables = [
+        resample(
+            extend_full_range(
+                p,
+                extension_method,
+                aspect_ratio=aspect_ratio,
+                cd_max=cd_max,
+                trailing_edge_lift_factor=trailing_edge_lift_factor,
+                step_deg=extension_step_deg,
+            ),
+            alpha_deg=grid,
+        )
+        for p in chosen
+    ]
+    columns = ("cl", "cd", "cm") if all(t.cm is not None for t in tables) else ("cl", "cd")
+    thicknesses = sorted({float(t.thickness) for t in tables if t.thickness is not None})
+    groups = []
+    ordered: list[Polar] = []
+    for thickness in thicknesses:
+        group = sorted(
+            (t for t in tables if t.thickness == thickness), key=lambda t: float(t.reynolds or 0)
+        )
+        keys = np.array([t.reynolds for t in group], dtype=np.float64)
+        if np.unique(keys).size != keys.size:
+            raise ParameterError(
+                "members", f"two members at t/c {thickness:g} share a Reynolds number"
+            )
+        groups.append((keys, slice(len(ordered), len(ordered) + len(group))))
+        ordered.extend(group)
+    stack = np.asarray([[getattr(t, c) for c in columns] for t in ordered], dtype=np.float64)
+    recipe = {
+        "grid_step_deg": float(grid_step_deg),
+        "surface": surface,
+        "extension_method": extension_method,
+        "aspect_ratio": aspect_ratio,
+        "cd_max": cd_max,
+        "trailing_edge_lift_factor": float(trailing_edge_lift_factor),
+        "extension_step_deg": float(extension_step_deg),
+        "members": len(chosen),
+    }
+    return PreparedFamily(grid, np.asarray(thicknesses), tuple(groups), stack, columns, recipe)
+
+
+def build_blade_tables(
+    members: Sequence[Polar] | PreparedFamily,
+    stations: BladeStations | Mapping[str, ArrayLike],
+    *,
+    rotor_radius_m: float,
+    tip_speed_ratio: float | None = None,
+    grid_step_deg: float = 0.5,
+    surface: str = "clean",
+    extension_method: str = "viterna",
+    aspect_ratio: float | None = None,
+    cd_max: float | None = None,
+    trailing_edge_lift_factor: float = 0.7,
+    extension_step_deg: float = 1.0,
+    rotation_model: str | None = "snel",
+    cl_alpha_per_rad: float | None = None,
+    fade_start_deg: float = 30.0,
+    fade_end_deg: float = 50.0,
+    thickness_method: str = "linear",
+    clamp: bool = False,
+) -> BladeTables:
+    """Full-range, rotationally augmented, interpolated tables at every blade station.
+
+    Parameters
+    ----------
+    members : sequence of Polar or PreparedFamily
+        The family: polars at several thicknesses, Reynolds numbers and surface conditions;
+        or the result of :func:`prepare_family` (then the extension and grid keywords are
+        those it was prepared with and the ones given here are ignored).
+    stations : BladeStations or mapping
+        ``radius_m``, ``chord_m``, ``twist_deg``, ``thickness``, ``reynolds`` per station.
+    rotor_radius_m : float
+        Tip radius R [m] (for r/R).
+    tip_speed_ratio : float, optional
+        ``Omega R / V`` [-] (du-selig).
+    grid_step_deg : float
+        Step of the common angle grid [deg] over -180..180.
+    surface : str
+        Surface condition of the members used.
+    extension_method, aspect_ratio, cd_max, trailing_edge_lift_factor, extension_step_deg
+        Passed to :func:`~polarsvc.aero.extension.extend_full_range` (``step_deg``).
+    rotation_model : str or None
+        One of :data:`~polarsvc.aero.rotation.ROTATION_MODELS`, or ``None`` for none.
+    cl_alpha_per_rad, fade_start_deg, fade_end_deg
+        As in :func:`~polarsvc.aero.rotation.augment_rotation`.
+    thickness_method : {"linear", "pchip"}
+    clamp : bool
+        Clamp stations outside the family's Reynolds or thickness range (recorded per station).
+
+    Returns
+    -------
+    BladeTables
+
+    Notes
+    -----
+    The pipeline is set out in the module docstring. References of each step are in the
+    functions named there.
+    """
+    blade = _as_stations(stations)
+    if not (math.isfinite(rotor_radius_m) and rotor_radius_m > 0.0):
+        raise ParameterError(
+            "rotor_radius_m", f"must be positive, got {show_value(rotor_radius_m)}"
+        )
+    if thickness_method not in THICKNESS_METHODS:
+        raise UnknownMethodError("thickness_method", thickness_method, THICKNESS_METHODS)
+    if rotation_model is not None and rotation_model not in ROTATION_MODELS:
+        raise UnknownMethodError("rotation_model", rotation_model, ROTATION_MODELS)
+    family = members if isinstance(members, PreparedFamily) else prepare_family(
+        members,
+        grid_step_deg=grid_step_deg,
+        surface=surface,
+        extension_method=extension_method,
+        aspect_ratio=aspect_ratio,
+        cd_max=cd_max,
+        trailing_edge_lift_factor=trailing_edge_lift_factor,
+        extension_step_deg=extension_step_deg,
+    )
+    grid = family.alpha_deg
+    log_re = np.log10(blade.reynolds)
+    values = family.thicknesses
+    t_weights = bracket_weights(values, blade.thickness, clamp=clamp, parameter="thickness")
+    reynolds_reports = []
+    re_pairs = []
+    for thickness, (keys, rows) in zip(values, family.groups, strict=True):
+        weights = bracket_weights(np.log10(keys), log_re, clamp=clamp, parameter="reynolds")
+        index, weight = _pairs(weights)
+        re_pairs.append((index + rows.start, weight))  # indices into family.tables
+        reynolds_reports.append((float(thickness), keys, weights))
+    if thickness_method == "pchip" and values.size > 1:
+        per_thickness = np.stack(
+            [_combine(family.tables, index, weight) for index, weight in re_pairs]
+        )
+        table = _pchip_blend(values, per_thickness, t_weights.used)
+    else:
+        # thickness neighbours x their Reynolds neighbours: four terms per station
+        t_index, t_weight = _pairs(t_weights)
+        re_index = np.stack([pair[0] for pair in re_pairs])  # (groups, stations, 2)
+        re_weight = np.stack([pair[1] for pair in re_pairs])
+        stations_axis = np.arange(blade.size)
+        index = np.concatenate(
+            [re_index[t_index[:, j], stations_axis] for j in range(2)], axis=1
+        )
+        weight = np.concatenate(
+            [t_weight[:, [j]] * re_weight[t_index[:, j], stations_axis] for j in range(2)],
+            axis=1,
+        )
+        table = _combine(family.tables, index, weight)
+    cl, cd = table[:, 0], table[:, 1]
+    cm = table[:, 2] if "cm" in family.columns else None
+    r_over_R = blade.radius_m / rotor_radius_m
+    chord_over_r = blade.chord_m / blade.radius_m
+    rotation: dict[str, FloatArray] = {}
+    if rotation_model is not None:
+        weight = fade_weight(grid, fade_start_deg, fade_end_deg)
+        f_cl, g_cd = _model_factors(
+            rotation_model, chord_over_r, r_over_R, tip_speed_ratio, blade.twist_deg
+        )
+        slope, alpha0 = _lift_line_arrays(grid, cl)
+        slope = _override_slope(slope, cl_alpha_per_rad)
+        cl, cd = _augment_arrays(grid, cl, cd, f_cl, g_cd, slope, alpha0, weight)
+        rotation = {
+            "lift_factor": f_cl,
+            "drag_factor": g_cd,
+            "cl_alpha_per_rad": np.degrees(slope),
+            "alpha0_deg": alpha0,
+        }
+    reports = _station_reports(blade, reynolds_reports, values, t_weights, rotation)
+    recipe = {
+        **family.recipe,
+        "rotation_model": rotation_model,
+        "thickness_method": thickness_method,
+        "clamp": clamp,
+        "rotor_radius_m": float(rotor_radius_m),
+        "tip_speed_ratio": tip_speed_ratio,
+        "fade_deg": [float(fade_start_deg), float(fade_end_deg)],
+    }
+    return BladeTables(grid, cl, cd, cm, reports, recipe)
+
+
+def _station_reports(
+    blade: BladeStations,
+    reynolds_reports: list[tuple[float, FloatArray, Any]],
+    thicknesses: FloatArray,
+    t_weights: Any,
+    rotation: dict[str, FloatArray],
+) -> tuple[dict[str, Any], ...]:
+    count = blade.size
+    t_used = t_weights.used.tolist()
+    t_clamped = t_weights.clamped.tolist()
+    lower = t_weights.lower.tolist()
+    upper = t_weights.upper.tolist()
+    w_lower = t_weights.weight_lower.tolist()
+    w_upper = t_weights.weight_upper.tolist()
+    per_member = [
+        (
+            thickness,
+            np.where(w.clamped, np.clip(blade.reynolds, keys[0], keys[-1]), blade.reynolds)
+            .tolist(),
+            w.clamped.tolist(),
+        )
+        for thickness, keys, w in reynolds_reports
+    ]
+    rot = {k: v.tolist() for k, v in rotation.items()}
+    reports = []
+    for s in range(count):
+        thickness_weights = {}
+        if w_lower[s] > 0.0:
+            thickness_weights[str(thicknesses[lower[s]].item())] = w_lower[s]
+        if upper[s] != lower[s] and w_upper[s] > 0.0:
+            thickness_weights[str(thicknesses[upper[s]].item())] = w_upper[s]
+        report: dict[str, Any] = {
+            "station": s,
+            "radius_m": blade.radius_m[s].item(),
+            "thickness_requested": blade.thickness[s].item(),
+            "thickness_used": t_used[s],
+            "thickness_clamped": t_clamped[s],
+            "thickness_weights": thickness_weights,
+            "reynolds_requested": blade.reynolds[s].item(),
+            "reynolds_used": {str(t): used[s] for t, used, _ in per_member},
+            "reynolds_clamped": any(clamped[s] for _, _, clamped in per_member),
+        }
+        if rot:
+            report["rotation"] = {k: v[s] for k, v in rot.items()}
+        reports.append(report)
+    return tuple(reports)

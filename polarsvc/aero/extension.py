@@ -1,0 +1,509 @@
+"""Extension of a section table to the full range of angle of attack, -180..180 deg.
+
+Construction (angles in deg; ``a_lo..a_hi`` is the measured range):
+
+1. **Inner curve** ``C`` on -90..90 deg. Inside the data: the data (linear interpolation).
+   From the data's upper end to 90 deg: the high-angle model (Viterna-Corrigan from the
+   positive stall point, or the flat-plate normal-force model) plus the offset that makes it
+   meet the last measured value, the offset decaying linearly to zero at 90 deg; likewise
+   from the lower end to -90 deg with the model anchored at the negative stall point.
+   Hence ``cl(+-90) = 0`` and ``cd(+-90) = cd_max`` for Viterna-Corrigan.
+2. **Trailing edge first**, ``|alpha| > 90``: the inner curve mirrored about +-90 deg,
+   ``cl(alpha) = -k C_cl(180 - alpha)``, ``cd(alpha) = C_cd(180 - alpha)`` for alpha > 90 and
+   ``cl(alpha) = -k C_cl(-180 - alpha)``, ``cd(alpha) = C_cd(-180 - alpha)`` for alpha < -90,
+   with ``k`` = ``trailing_edge_lift_factor`` (0.7, common practice, no single source). Both
+   sides meet at +-180 with ``cl = -k cl(0)`` and ``cd = cd(0)``: the table is periodic and
+   continuous (even in slope) through 180 deg.
+3. A table that already reaches beyond +-90 deg gets, outside its data, the offset that makes
+   the curve meet its end values, decaying linearly along the circle to zero at the nearer of
+   +-90 deg not covered by data.
+4. **Pitching moment** (when the table has one): centre-of-pressure rule
+   ``cm = -cn (x_cp - 1/4)`` with ``cn = cl cos a + cd sin a`` and ``x_cp = 1/2 - cos(a) / 4``
+   (0.25 c attached, 0.5 c broadside, 0.75 c trailing edge first; Hoerner 1965, "Fluid-Dynamic
+   Drag", from memory), plus the offset that meets the measured cm at each end of the
+   data, decaying linearly to zero at +-90 deg.
+
+Measured rows are never altered: the output holds every input row unchanged plus the
+extension rows, which lie on the multiples of ``step_deg`` (default 1 deg) outside the data
+range, with both -180 and 180 always included.
+
+A cylinder (thickness 1) has no stall: its end values are joined around the circle by
+linear interpolation (method ``"cylinder"`` in the history).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from polarsvc.aero.errors import (
+    InsufficientDataError,
+    ParameterError,
+    UnknownMethodError,
+    show_value,
+)
+from polarsvc.aero.polar import Polar
+from polarsvc.aero.resample import aligned_grid
+
+FloatArray = NDArray[np.float64]
+
+EXTENSION_METHODS: tuple[str, ...] = ("viterna", "flat-plate")
+"""Valid names of the high-angle model."""
+
+VITERNA_CD_MAX_BASE = 1.11
+VITERNA_CD_MAX_PER_ASPECT_RATIO = 0.018
+VITERNA_ASPECT_RATIO_CAP = 50.0
+"""cd_max = 1.11 + 0.018 AR, AR capped at 50 (Viterna & Corrigan 1982, NASA CP-2230)."""
+
+DEFAULT_ASPECT_RATIO = VITERNA_ASPECT_RATIO_CAP
+"""Without aspect_ratio or cd_max the section is taken as two-dimensional: AR at the cap, so
+cd_max = 2.01, close to the broadside flat plate's 2.0 (Hoerner 1965, from memory)."""
+
+FLAT_PLATE_A = 0.56
+FLAT_PLATE_B = 0.44
+"""cn = cd90 sin a / (0.56 + 0.44 sin a), attributed to Lindenburg (ECN, about 2000; from
+memory)."""
+
+DEFAULT_TRAILING_EDGE_LIFT_FACTOR = 0.7
+DEFAULT_EXTENSION_STEP_DEG = 1.0
+STALL_SEARCH_DEG = 30.0
+"""Stall angles are searched within +-30 deg of zero, which keeps the flat-plate lift peak near
+45 deg out of the search (common practice, no source)."""
+
+CYLINDER_THICKNESS = 1.0
+
+EXTENSION_MARGIN = 1e-6
+"""Extension rows closer than this fraction of the step to a data end are left out."""
+
+
+def viterna_cd_max(aspect_ratio: float) -> float:
+    """Maximum drag coefficient of the Viterna-Corrigan model.
+
+    Parameters
+    ----------
+    aspect_ratio : float
+        Blade aspect ratio [-], positive; capped at 50.
+
+    Returns
+    -------
+    float
+        ``1.11 + 0.018 min(AR, 50)`` (Viterna & Corrigan 1982, "Fixed pitch rotor performance
+        of large horizontal axis wind turbines", NASA CP-2230).
+    """
+    value = float(aspect_ratio)
+    if not (math.isfinite(value) and value > 0.0):
+        raise ParameterError("aspect_ratio", f"must be positive, got {show_value(value)}")
+    capped = min(value, VITERNA_ASPECT_RATIO_CAP)
+    return VITERNA_CD_MAX_BASE + VITERNA_CD_MAX_PER_ASPECT_RATIO * capped
+
+
+def viterna_corrigan(
+    alpha_deg: ArrayLike,
+    alpha_stall_deg: float,
+    cl_stall: float,
+    cd_stall: float,
+    cd_max: float,
+) -> tuple[FloatArray, FloatArray]:
+    """Viterna-Corrigan post-stall lift and drag between the stall angle and 90 deg.
+
+    Parameters
+    ----------
+    alpha_deg : array_like
+        Angles [deg] in (0, 90].
+    alpha_stall_deg : float
+        Stall angle [deg] in (0, 90).
+    cl_stall, cd_stall : float
+        Lift and drag coefficient at the stall angle [-].
+    cd_max : float
+        Drag coefficient at 90 deg [-].
+
+    Returns
+    -------
+    cl, cd : ndarray
+
+    Notes
+    -----
+    ``cd = B1 sin^2 a + B2 cos a``, ``B1 = cd_max``,
+    ``B2 = (cd_s - cd_max sin^2 a_s) / cos a_s``;
+    ``cl = A1 sin 2a + A2 cos^2 a / sin a``, ``A1 = B1 / 2``,
+    ``A2 = (cl_s - cd_max sin a_s cos a_s) sin a_s / cos^2 a_s``
+    (Viterna & Corrigan 1982, NASA CP-2230). The curves pass through the stall point and give
+    ``cl(90) = 0``, ``cd(90) = cd_max``.
+    """
+    if not (0.0 < alpha_stall_deg < 90.0):
+        raise ParameterError(
+            "alpha_stall_deg", f"must lie in (0, 90) deg, got {show_value(alpha_stall_deg)}"
+        )
+    a = np.radians(np.asarray(alpha_deg, dtype=np.float64))
+    s = math.radians(alpha_stall_deg)
+    b1 = cd_max
+    b2 = (cd_stall - cd_max * math.sin(s) ** 2) / math.cos(s)
+    a1 = b1 / 2.0
+    a2 = (cl_stall - cd_max * math.sin(s) * math.cos(s)) * math.sin(s) / math.cos(s) ** 2
+    sin_a = np.sin(a)
+    cl = a1 * np.sin(2.0 * a) + a2 * np.cos(a) ** 2 / sin_a
+    cd = b1 * sin_a**2 + b2 * np.cos(a)
+    return cl, cd
+
+
+def flat_plate(alpha_deg: ArrayLike, cd90: float) -> tuple[FloatArray, FloatArray]:
+    """Flat-plate lift and drag from the normal-force model, for ``|alpha| <= 90`` deg.
+
+    Parameters
+    ----------
+    alpha_deg : array_like
+        Angles [deg].
+    cd90 : float
+        Normal-force (= drag) coefficient broadside, at 90 deg [-]; about 2.0 for large
+        aspect ratio (Hoerner 1965, "Fluid-Dynamic Drag", from memory).
+
+    Returns
+    -------
+    cl, cd : ndarray
+        ``cl = cn cos a``, ``cd = cn sin a`` with
+        ``cn = cd90 sin a / (0.56 + 0.44 |sin a|)`` (Lindenburg, ECN, about 2000; from
+        memory); ``cn(90) = cd90``.
+    """
+    a = np.radians(np.asarray(alpha_deg, dtype=np.float64))
+    sin_a = np.sin(a)
+    cn = cd90 * sin_a / (FLAT_PLATE_A + FLAT_PLATE_B * np.abs(sin_a))
+    return cn * np.cos(a), cn * sin_a
+
+
+def centre_of_pressure_moment(
+    alpha_deg: ArrayLike, cl: ArrayLike, cd: ArrayLike
+) -> FloatArray:
+    """Quarter-chord pitching moment of the centre-of-pressure rule.
+
+    ``cm = -cn (x_cp - 0.25)``, ``cn = cl cos a + cd sin a``, ``x_cp = 0.5 - 0.25 cos a``: the
+    centre of pressure moves from 0.25 c (attached) to 0.5 c broadside (flat plate; Hoerner
+    1965, "Fluid-Dynamic Drag", from memory) and to 0.75 c with the trailing edge first.
+    """
+    wrapped = np.asarray(alpha_deg, dtype=np.float64)
+    wrapped = np.where(wrapped <= -180.0, wrapped + 360.0, wrapped)  # -180 and 180 alike
+    a = np.radians(wrapped)
+    cn = np.asarray(cl) * np.cos(a) + np.asarray(cd) * np.sin(a)
+    return -cn * 0.25 * (1.0 - np.cos(a))
+
+
+def _stall_angles(
+    alpha: FloatArray,
+    cl: FloatArray,
+    positive: float | None,
+    negative: float | None,
+) -> tuple[float, float]:
+    """Positive stall at the global cl maximum over (0, 30] deg, negative stall at the global
+    cl minimum over [-30, 0) deg, unless given."""
+    a_lo, a_hi = float(alpha[0]), float(alpha[-1])
+    if positive is None:
+        mask = (alpha > 0.0) & (alpha <= STALL_SEARCH_DEG)
+        if not mask.any():
+            mask = alpha > 0.0
+        index = np.flatnonzero(mask)
+        positive = float(alpha[index[np.argmax(cl[mask])]])
+    else:
+        positive = float(positive)
+        if not (0.0 < positive <= min(a_hi, 89.0)):
+            raise ParameterError(
+                "alpha_stall_pos_deg",
+                f"must lie in (0, {min(a_hi, 89.0):g}] deg (within the data), "
+                f"got {show_value(positive)}",
+            )
+    if negative is None:
+        mask = (alpha < 0.0) & (alpha >= -STALL_SEARCH_DEG)
+        if not mask.any():
+            mask = alpha < 0.0
+        index = np.flatnonzero(mask)
+        negative = float(alpha[index[np.argmin(cl[mask])]])
+    else:
+        negative = float(negative)
+        if not (max(a_lo, -89.0) <= negative < 0.0):
+            raise ParameterError(
+                "alpha_stall_neg_deg",
+                f"must lie in [{max(a_lo, -89.0):g}, 0) deg (within the data), "
+                f"got {show_value(negative)}",
+            )
+    return positive, negative
+
+
+class _InnerCurve:
+    """Continuous lift and drag on -90..90 deg: data inside, offset models outside."""
+
+    def __init__(
+        self,
+        alpha: FloatArray,
+        cl: FloatArray,
+        cd: FloatArray,
+        method: str,
+        cd_max: float,
+        stall_pos: float,
+        stall_neg: float,
+    ) -> None:
+        self.alpha, self.cl, self.cd = alpha, cl, cd
+        self.method, self.cd_max = method, cd_max
+        self.a_lo, self.a_hi = float(alpha[0]), float(alpha[-1])
+        self.stall_pos = (
+            stall_pos,
+            float(np.interp(stall_pos, alpha, cl)),
+            float(np.interp(stall_pos, alpha, cd)),
+        )
+        self.stall_neg = (
+            stall_neg,
+            float(np.interp(stall_neg, alpha, cl)),
+            float(np.interp(stall_neg, alpha, cd)),
+        )
+        self.offset_pos = (0.0, 0.0)
+        self.offset_neg = (0.0, 0.0)
+        if self.a_hi < 90.0:
+            m_cl, m_cd = self._model(np.array([self.a_hi]), positive=True)
+            self.offset_pos = (float(cl[-1] - m_cl[0]), float(cd[-1] - m_cd[0]))
+        if self.a_lo > -90.0:
+            m_cl, m_cd = self._model(np.array([self.a_lo]), positive=False)
+            self.offset_neg = (float(cl[0] - m_cl[0]), float(cd[0] - m_cd[0]))
+
+    def _model(self, x: FloatArray, *, positive: bool) -> tuple[FloatArray, FloatArray]:
+        if self.method == "flat-plate":
+            return flat_plate(x, self.cd_max)
+        if positive:
+            a_s, cl_s, cd_s = self.stall_pos
+            return viterna_corrigan(x, a_s, cl_s, cd_s, self.cd_max)
+        a_s, cl_s, cd_s = self.stall_neg
+        m_cl, m_cd = viterna_corrigan(-x, -a_s, -cl_s, cd_s, self.cd_max)
+        return -m_cl, m_cd
+
+    def __call__(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
+        cl = np.interp(x, self.alpha, self.cl)
+        cd = np.interp(x, self.alpha, self.cd)
+        high = x > self.a_hi
+        if high.any():
+            xh = x[high]
+            m_cl, m_cd = self._model(xh, positive=True)
+            decay = (90.0 - xh) / (90.0 - self.a_hi)
+            cl[high] = m_cl + self.offset_pos[0] * decay
+            cd[high] = m_cd + self.offset_pos[1] * decay
+        low = x < self.a_lo
+        if low.any():
+            xl = x[low]
+            m_cl, m_cd = self._model(xl, positive=False)
+            decay = (xl + 90.0) / (self.a_lo + 90.0)
+            cl[low] = m_cl + self.offset_neg[0] * decay
+            cd[low] = m_cd + self.offset_neg[1] * decay
+        return cl, cd
+
+
+def _full_circle(
+    inner: _InnerCurve, alpha: FloatArray, k: float
+) -> tuple[FloatArray, FloatArray]:
+    """The continuous, periodic model on -180..180 deg (inner curve plus mirror)."""
+    x = np.where(alpha > 90.0, 180.0 - alpha, np.where(alpha < -90.0, -180.0 - alpha, alpha))
+    cl, cd = inner(x)
+    mirrored = np.abs(alpha) > 90.0
+    return np.where(mirrored, -k * cl, cl), cd
+
+
+def _arc_offset(
+    ext_alpha: FloatArray,
+    a_lo: float,
+    a_hi: float,
+    offset_hi: float,
+    offset_lo: float,
+    *,
+    zero_at_right_angles: bool,
+) -> FloatArray:
+    """Offset along the circle outside the data: ``offset_hi`` at the upper data end,
+    ``offset_lo`` at the lower one, linear in between, optionally through zero at +-90 deg
+    where those lie outside the data."""
+    length = 360.0 - (a_hi - a_lo)
+    s = np.mod(ext_alpha - a_hi, 360.0)
+    knots = [(0.0, offset_hi), (length, offset_lo)]
+    if zero_at_right_angles:
+        knots += [
+            (float(np.mod(angle - a_hi, 360.0)), 0.0)
+            for angle in (90.0, -90.0)
+            if not (a_lo <= angle <= a_hi)
+        ]
+    knots.sort()
+    return np.interp(s, [k[0] for k in knots], [k[1] for k in knots])
+
+
+def _slope_jumps(
+    alpha: FloatArray,
+    values: FloatArray,
+    ext_alpha: FloatArray,
+    ext_values: FloatArray,
+) -> tuple[float, float]:
+    """Slope jumps [1/deg] (extension side minus data side) at the upper and lower join."""
+    a_lo, a_hi = float(alpha[0]), float(alpha[-1])
+    gap_hi = np.mod(ext_alpha - a_hi, 360.0)
+    gap_lo = np.mod(a_lo - ext_alpha, 360.0)
+    # a row at the same angle as a data end across +-180 is that end, not its neighbour
+    gap_hi = np.where(gap_hi > EXTENSION_MARGIN, gap_hi, np.inf)
+    gap_lo = np.where(gap_lo > EXTENSION_MARGIN, gap_lo, np.inf)
+    first, last = int(np.argmin(gap_hi)), int(np.argmin(gap_lo))
+    ext_hi = (ext_values[first] - values[-1]) / gap_hi[first]
+    ext_lo = (values[0] - ext_values[last]) / gap_lo[last]
+    data_hi = (values[-1] - values[-2]) / (alpha[-1] - alpha[-2])
+    data_lo = (values[1] - values[0]) / (alpha[1] - alpha[0])
+    return float(ext_hi - data_hi), float(ext_lo - data_lo)
+
+
+def _extension_angles(step_deg: float, a_lo: float, a_hi: float) -> FloatArray:
+    grid = aligned_grid(step_deg, -180.0, 180.0)
+    grid = np.union1d(grid, [-180.0, 180.0])
+    margin = EXTENSION_MARGIN * step_deg
+    return grid[(grid < a_lo - margin) | (grid > a_hi + margin)]
+
+
+def _resolve_cd_max(aspect_ratio: float | None, cd_max: float | None) -> float:
+    if aspect_ratio is not None and cd_max is not None:
+        raise ParameterError("cd_max", "give either aspect_ratio or cd_max, not both")
+    if cd_max is not None:
+        value = float(cd_max)
+        if not (math.isfinite(value) and 0.0 < value <= 3.0):
+            raise ParameterError("cd_max", f"must lie in (0, 3], got {show_value(value)}")
+        return value
+    return viterna_cd_max(DEFAULT_ASPECT_RATIO if aspect_ratio is None else aspect_ratio)
+
+
+def extend_full_range(
+    polar: Polar,
+    method: str = "viterna",
+    *,
+    aspect_ratio: float | None = None,
+    cd_max: float | None = None,
+    alpha_stall_pos_deg: float | None = None,
+    alpha_stall_neg_deg: float | None = None,
+    trailing_edge_lift_factor: float = DEFAULT_TRAILING_EDGE_LIFT_FACTOR,
+    step_deg: float = DEFAULT_EXTENSION_STEP_DEG,
+) -> Polar:
+    """Extend a section polar to -180..180 deg.
+
+    Parameters
+    ----------
+    polar : Polar
+        Measured or computed table spanning 0 deg (some negative and some positive angles).
+    method : {"viterna", "flat-plate"}
+        High-angle model between the data and +-90 deg: Viterna-Corrigan (Viterna & Corrigan
+        1982, "Fixed pitch rotor performance of large horizontal axis wind turbines", NASA
+        CP-2230) anchored at the stall points, or the flat-plate normal-force model
+        ``cn = cd_max sin a / (0.56 + 0.44 sin a)`` (Lindenburg, ECN, about 2000; from memory).
+    aspect_ratio : float, optional
+        Blade aspect ratio [-] giving ``cd_max = 1.11 + 0.018 min(AR, 50)``.
+    cd_max : float, optional
+        Drag coefficient at 90 deg [-], instead of ``aspect_ratio``. Neither given: AR = 50,
+        ``cd_max = 2.01`` (:data:`DEFAULT_ASPECT_RATIO`).
+    alpha_stall_pos_deg, alpha_stall_neg_deg : float, optional
+        Stall angles [deg] anchoring the Viterna-Corrigan curves; by default the angle of the
+        global cl maximum in (0, 30] deg and of the global cl minimum in [-30, 0) deg.
+    trailing_edge_lift_factor : float
+        Scale ``k`` in [0, 1] of the mirrored lift with the trailing edge first.
+    step_deg : float
+        Step [deg] of the extension rows (multiples of it outside the data).
+
+    Returns
+    -------
+    Polar
+        Every input row unchanged plus the extension rows. The history step
+        ``"extend_full_range"`` records the method, cd_max, the stall angles and, under
+        ``"joins"``, each join angle (data end) with the slope jumps ``d(coef)/d(alpha)``
+        [1/deg] (extension side minus data side) of cl, cd and cm.
+
+    Raises
+    ------
+    UnknownMethodError
+        ``method`` not valid.
+    ParameterError
+        Bad cd_max, aspect ratio, stall angle, factor or step.
+    InsufficientDataError
+        The table does not span 0 deg.
+
+    Notes
+    -----
+    The construction is set out in the module docstring (:mod:`polarsvc.aero.extension`).
+    A table already covering -180..180 comes back unchanged (history says so).
+    """
+    if method not in EXTENSION_METHODS:
+        raise UnknownMethodError("method", method, EXTENSION_METHODS)
+    k = float(trailing_edge_lift_factor)
+    if not (math.isfinite(k) and 0.0 <= k <= 1.0):
+        raise ParameterError(
+            "trailing_edge_lift_factor", f"must lie in [0, 1], got {show_value(k)}"
+        )
+    cd_max_value = _resolve_cd_max(aspect_ratio, cd_max)
+    alpha, cl, cd, cm = polar.alpha_deg, polar.cl, polar.cd, polar.cm
+    if polar.covers_full_range:
+        return polar.with_table(
+            alpha, cl, cd, cm,
+            step={"step": "extend_full_range", "unchanged": True,
+                  "reason": "the table already covers -180..180 deg"},
+        )
+    a_lo, a_hi = float(alpha[0]), float(alpha[-1])
+    ext_alpha = _extension_angles(step_deg, a_lo, a_hi)
+    cylinder = polar.thickness == CYLINDER_THICKNESS
+    report: dict[str, Any] = {"step": "extend_full_range", "step_deg": float(step_deg)}
+    if cylinder:
+        ext_cl = _arc_offset(ext_alpha, a_lo, a_hi, cl[-1], cl[0], zero_at_right_angles=False)
+        ext_cd = _arc_offset(ext_alpha, a_lo, a_hi, cd[-1], cd[0], zero_at_right_angles=False)
+        ext_cm = None
+        if cm is not None:
+            ext_cm = _arc_offset(
+                ext_alpha, a_lo, a_hi, cm[-1], cm[0], zero_at_right_angles=False
+            )
+        report.update(method="cylinder", requested_method=method)
+    else:
+        if not (a_lo < 0.0 < a_hi):
+            raise InsufficientDataError(
+                f"the table spans {a_lo:g}..{a_hi:g} deg; the extension needs data on both "
+                "sides of 0 deg"
+            )
+        stall_pos, stall_neg = _stall_angles(alpha, cl, alpha_stall_pos_deg, alpha_stall_neg_deg)
+        inner = _InnerCurve(alpha, cl, cd, method, cd_max_value, stall_pos, stall_neg)
+        both_cl, both_cd = _full_circle(inner, np.concatenate([ext_alpha, [a_lo, a_hi]]), k)
+        model_cl, end_cl = both_cl[:-2], both_cl[-2:]
+        model_cd, end_cd = both_cd[:-2], both_cd[-2:]
+        ext_cl = model_cl + _arc_offset(
+            ext_alpha, a_lo, a_hi, cl[-1] - end_cl[1], cl[0] - end_cl[0],
+            zero_at_right_angles=True,
+        )
+        ext_cd = model_cd + _arc_offset(
+            ext_alpha, a_lo, a_hi, cd[-1] - end_cd[1], cd[0] - end_cd[0],
+            zero_at_right_angles=True,
+        )
+        ext_cm = None
+        if cm is not None:
+            ends = np.array([a_lo, a_hi])
+            end_cm = centre_of_pressure_moment(ends, np.array([cl[0], cl[-1]]),
+                                               np.array([cd[0], cd[-1]]))
+            ext_cm = centre_of_pressure_moment(ext_alpha, ext_cl, ext_cd) + _arc_offset(
+                ext_alpha, a_lo, a_hi, cm[-1] - end_cm[1], cm[0] - end_cm[0],
+                zero_at_right_angles=True,
+            )
+        report.update(
+            method=method,
+            cd_max=cd_max_value,
+            aspect_ratio=None if aspect_ratio is None else float(aspect_ratio),
+            trailing_edge_lift_factor=k,
+            stall_angles_deg={"positive": stall_pos, "negative": stall_neg},
+        )
+    jumps = {
+        "cl": _slope_jumps(alpha, cl, ext_alpha, ext_cl),
+        "cd": _slope_jumps(alpha, cd, ext_alpha, ext_cd),
+    }
+    if cm is not None and ext_cm is not None:
+        jumps["cm"] = _slope_jumps(alpha, cm, ext_alpha, ext_cm)
+    report["joins"] = [
+        {
+            "side": side,
+            "angle_deg": angle,
+            **{f"{name}_slope_jump_per_deg": pair[index] for name, pair in jumps.items()},
+        }
+        for index, (side, angle) in enumerate((("positive", a_hi), ("negative", a_lo)))
+    ]
+    out_alpha = np.concatenate([alpha, ext_alpha])
+    out_cl = np.concatenate([cl, ext_cl])
+    out_cd = np.concatenate([cd, ext_cd])
+    out_cm = None if cm is None or ext_cm is None else np.concatenate([cm, ext_cm])
+    return polar.with_table(out_alpha, out_cl, out_cd, out_cm, step=report)

@@ -1,0 +1,190 @@
+"""Rotational augmentation: Snel, Du-Selig, Chaviaropoulos-Hansen."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from polarsvc.aero import (
+    ParameterError,
+    Polar,
+    UnknownMethodError,
+    augment_rotation,
+    chaviaropoulos_hansen_factor,
+    du_selig_factors,
+    extend_full_range,
+    fade_weight,
+    snel_factor,
+)
+
+from .synthetic import kirchhoff_polar
+
+
+def piecewise_polar() -> Polar:
+    """Exactly linear lift, 2 pi (alpha + 2 deg), up to 6 deg, then cl = 1.2 (invented): the
+    fitted lift line is exact, so a hand calculation applies."""
+    alpha = np.arange(-20.0, 45.5, 1.0)
+    linear = 2.0 * math.pi * np.radians(alpha + 2.0)
+    cl = np.where(alpha <= 6.0, linear, 1.2)
+    cl = np.where(alpha < -10.0, 2.0 * math.pi * np.radians(-8.0), cl)
+    cd = 0.01 + 0.02 * np.clip(alpha - 6.0, 0.0, None) / 10.0
+    return Polar(alpha, cl, cd, 0.0 * alpha - 0.05)
+
+
+def test_snel_factor_published_value() -> None:
+    # 3 (c/r)^2 at c/r = 0.2: 3 * 0.04 = 0.12 (Snel, Houwink & Bosschers 1994, ECN-C--93-052)
+    assert snel_factor(0.2) == pytest.approx(0.12, rel=1e-12)
+    np.testing.assert_allclose(snel_factor([0.1, 0.2]), [0.03, 0.12])
+
+
+def test_snel_augmented_lift_worked_by_hand() -> None:
+    p = piecewise_polar()
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2)
+    i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
+    # by hand: cl_lin(20) = 2 pi * radians(22) = 6.283185 * 0.383972 = 2.412570;
+    # cl_3d = 1.2 + 0.12 (2.412570 - 1.2) = 1.2 + 0.145508 = 1.345508 (Snel et al. 1994)
+    assert q.cl[i20] == pytest.approx(1.345508, abs=2e-6)
+    # at 40 deg the fade weight is (50 - 40) / (50 - 30) = 0.5 (common practice, no source)
+    i40 = int(np.flatnonzero(p.alpha_deg == 40.0)[0])
+    cl_lin40 = 2 * math.pi * math.radians(42.0)
+    assert q.cl[i40] == pytest.approx(1.2 + 0.5 * 0.12 * (cl_lin40 - 1.2), rel=1e-9)
+    # attached flow: no change; drag unchanged by Snel; cm unchanged
+    i0 = int(np.flatnonzero(p.alpha_deg == 0.0)[0])
+    assert q.cl[i0] == pytest.approx(p.cl[i0], abs=1e-12)
+    np.testing.assert_array_equal(q.cd, p.cd)
+    np.testing.assert_array_equal(q.cm, p.cm)
+    step = q.history[-1]
+    assert step["model"] == "snel" and step["lift_factor"] == pytest.approx(0.12)
+    assert step["cl_alpha_per_rad"] == pytest.approx(2 * math.pi, rel=1e-9)
+    assert step["alpha0_deg"] == pytest.approx(-2.0, abs=1e-9)
+
+
+def test_du_selig_factors_worked_by_hand() -> None:
+    # Du & Selig (1998), AIAA-98-0021 (from memory, as in the domain notes), a = b = d = 1.
+    # c/r = 0.1, r/R = 0.3, tsr = 7:
+    #   Lambda = 7 / sqrt(1 + 49) = 0.9899495
+    #   lift exponent R/(Lambda r) = 1 / (0.9899495 * 0.3) = 3.367175
+    #   (c/r)^e = 0.1^3.367175 = 4.29363e-4
+    #   (1 - 4.29363e-4) / (1 + 4.29363e-4) = 0.9991416
+    #   1.6 * 0.1 / 0.1267 = 1.2628256
+    #   f_cl = (1.2628256 * 0.9991416 - 1) / (2 pi) = 0.0416575
+    #   drag exponent 3.367175 / 2 = 1.683588; 0.1^1.683588 = 0.0207211
+    #   (1 - 0.0207211) / (1 + 0.0207211) = 0.9593991
+    #   f_cd = (1.2628256 * 0.9593991 - 1) / (2 pi) = 0.0336698
+    f_cl, f_cd = du_selig_factors(0.1, 0.3, 7.0)
+    assert f_cl == pytest.approx(0.0416575, abs=2e-7)
+    assert f_cd == pytest.approx(0.0336698, abs=2e-7)
+
+
+def test_chaviaropoulos_hansen_factor_worked_by_hand() -> None:
+    # Chaviaropoulos & Hansen (2000), J. Fluids Eng. 122 (from memory): a = 2.2, h = 1, n = 4.
+    # c/r = 0.2, twist 10 deg: 2.2 * 0.2 * cos(10 deg)^4 = 0.44 * 0.9848078^4
+    #   = 0.44 * 0.9406019 = 0.4138648
+    assert chaviaropoulos_hansen_factor(0.2, 10.0) == pytest.approx(0.4138648, abs=2e-7)
+    np.testing.assert_allclose(
+        chaviaropoulos_hansen_factor([0.1, 0.2], [0.0, 0.0]), [0.22, 0.44], rtol=1e-12
+    )
+
+
+def test_du_selig_and_ch_drag_directions() -> None:
+    p = piecewise_polar()
+    i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
+    ds = augment_rotation(p, "du-selig", r_over_R=0.3, chord_over_r=0.1, tip_speed_ratio=7.0)
+    # cd_3d = cd - f_cd (cd - cd0), cd0 = cd at alpha0 = 0.01 (Du & Selig 1998, from memory)
+    assert ds.cd[i20] == pytest.approx(p.cd[i20] - 0.0336698 * (p.cd[i20] - 0.01), abs=1e-8)
+    assert ds.cl[i20] == pytest.approx(
+        1.2 + 0.0416575 * (2 * math.pi * math.radians(22.0) - 1.2), abs=1e-6
+    )
+    ch = augment_rotation(p, "chaviaropoulos-hansen", r_over_R=0.3, chord_over_r=0.2,
+                          twist_deg=10.0)
+    # the same form for drag on (cd - cd0) (Chaviaropoulos & Hansen 2000, from memory)
+    assert ch.cd[i20] == pytest.approx(p.cd[i20] + 0.4138648 * (p.cd[i20] - 0.01), abs=1e-8)
+
+
+def test_given_lift_slope_used() -> None:
+    p = piecewise_polar()
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2, cl_alpha_per_rad=5.0)
+    i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
+    assert q.cl[i20] == pytest.approx(1.2 + 0.12 * (5.0 * math.radians(22.0) - 1.2), rel=1e-9)
+
+
+def test_no_correction_beyond_fade_end_and_90_deg() -> None:
+    e = extend_full_range(kirchhoff_polar())
+    q = augment_rotation(e, "snel", r_over_R=0.2, chord_over_r=0.3, fade_end_deg=60.0)
+    far = np.abs(e.alpha_deg) >= 60.0
+    np.testing.assert_array_equal(q.cl[far], e.cl[far])
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(e, "snel", r_over_R=0.2, chord_over_r=0.3, fade_end_deg=95.0)
+    assert info.value.parameter == "fade_end_deg"
+
+
+def test_fade_weight_linear() -> None:
+    # full to 30 deg, linear to zero at 50 deg, symmetric in |alpha| (common practice)
+    np.testing.assert_allclose(
+        fade_weight([-60.0, -40.0, 0.0, 30.0, 40.0, 50.0], 30.0, 50.0),
+        [0.0, 0.5, 1.0, 1.0, 0.5, 0.0],
+    )
+
+
+@pytest.mark.parametrize(
+    ("keywords", "parameter"),
+    [
+        ({"r_over_R": 0.0, "chord_over_r": 0.1}, "r_over_R"),
+        ({"r_over_R": 1.2, "chord_over_r": 0.1}, "r_over_R"),
+        ({"r_over_R": 0.5, "chord_over_r": -0.1}, "chord_over_r"),
+        ({"r_over_R": 0.5, "chord_over_r": math.nan}, "chord_over_r"),
+    ],
+)
+def test_parameters_validated(keywords: dict, parameter: str) -> None:
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(piecewise_polar(), "snel", **keywords)
+    assert info.value.parameter == parameter
+    assert "nan" not in str(info.value).lower()
+
+
+def test_du_selig_needs_tip_speed_ratio_and_unknown_model() -> None:
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3, chord_over_r=0.1)
+    assert info.value.parameter == "tip_speed_ratio"
+    with pytest.raises(UnknownMethodError):
+        augment_rotation(piecewise_polar(), "guess", r_over_R=0.3, chord_over_r=0.1)
+
+
+def test_factor_functions_vectorised() -> None:
+    f_cl, f_cd = du_selig_factors([0.1, 0.3], [0.3, 0.2], 7.0)
+    # second station by hand: Lambda = 0.9899495, e = 1/(0.9899495*0.2) = 5.050763,
+    # 0.3^5.050763 = 0.00228593, (1-p)/(1+p) = 0.9954386, 1.6*0.3/0.1267 = 3.7884767,
+    # f_cl = (3.7884767*0.9954386 - 1)/(2 pi) = 0.4410495 (Du & Selig 1998, from memory)
+    np.testing.assert_allclose(f_cl, [0.0416575, 0.4410495], atol=2e-7)
+    assert f_cd.shape == (2,)
+
+
+@settings(max_examples=40, deadline=None, database=None)
+@given(
+    model=st.sampled_from(["snel", "du-selig", "chaviaropoulos-hansen"]),
+    c_r=st.floats(0.01, 1.0),
+    r_R=st.floats(0.05, 1.0),
+    tsr=st.floats(1.0, 12.0),
+    twist=st.floats(-5.0, 30.0),
+)
+def test_property_correction_bounded(model, c_r, r_R, tsr, twist) -> None:
+    """The lift moves towards the attached line and never past it; nothing changes beyond
+    the fade end (definitions in polarsvc.aero.rotation; common practice, no source)."""
+    e = extend_full_range(kirchhoff_polar())
+    q = augment_rotation(e, model, r_over_R=r_R, chord_over_r=c_r, tip_speed_ratio=tsr,
+                         twist_deg=twist)
+    step = q.history[-1]
+    cl_lin = np.radians(step["cl_alpha_per_rad"]) * 0 + step["cl_alpha_per_rad"] * np.radians(
+        e.alpha_deg - step["alpha0_deg"]
+    )
+    lo = np.minimum(e.cl, cl_lin) - 1e-12
+    hi = np.maximum(e.cl, cl_lin) + 1e-12
+    assert np.all((q.cl >= lo) & (q.cl <= hi))
+    far = np.abs(e.alpha_deg) >= 50.0
+    np.testing.assert_array_equal(q.cl[far], e.cl[far])
+    np.testing.assert_array_equal(q.cd[far], e.cd[far])
+    assert np.all(q.cd > 0)
