@@ -1,0 +1,145 @@
+"""The FastAPI application factory. No engine or session exists at import time."""
+
+from __future__ import annotations
+
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from sqlalchemy.orm import sessionmaker
+
+from polarsvc import __version__
+from polarsvc.aero.errors import AeroError, OutOfRangeError
+from polarsvc.api.responses import FormatChoiceError, json_response
+from polarsvc.api.settings import Settings
+from polarsvc.formats import FormatError
+from polarsvc.store import errors as store_errors
+from polarsvc.store.db import make_engine, upgrade_database
+
+CAUTION = (
+    "Section tables feed load and energy calculations for machines whose failure can hurt "
+    "people. Validate them against measured data; design use follows IEC 61400-1, local "
+    "codes and certification practice, under a licensed engineer's judgement."
+)
+
+API_PREFIX = "/api/v1"
+
+DESCRIPTION = f"""
+A curated store of airfoil section polars with provenance, serving full-range
+(-180..180 deg), rotationally augmented and Reynolds/thickness-interpolated tables to rotor
+solvers. Every derived table carries its recipe and a content hash (also the ETag).
+
+Tables come as JSON (default), CSV (`format=csv` or `Accept: text/csv`) or a compact binary
+form (`format=bin` or `Accept: application/vnd.polarsvc.table`).
+
+**Caution.** {CAUTION}
+"""
+
+
+def create_app(settings: Settings | None = None) -> FastAPI:
+    """Build the application from ``settings`` (default: from the environment)."""
+    settings = settings or Settings.from_env()
+
+    @asynccontextmanager
+    async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        engine = make_engine(settings.database_url)
+        if settings.apply_migrations:
+            upgrade_database(engine)
+        app.state.engine = engine
+        app.state.session_factory = sessionmaker(engine, expire_on_commit=False)
+        try:
+            yield
+        finally:
+            engine.dispose()
+
+    app = FastAPI(
+        title="polarsvc",
+        version=__version__,
+        description=DESCRIPTION,
+        lifespan=lifespan,
+        openapi_url=f"{API_PREFIX}/openapi.json",
+        docs_url=f"{API_PREFIX}/docs",
+        redoc_url=None,
+    )
+    app.state.settings = settings
+    from polarsvc.web.sessions import WebSessions
+
+    app.state.web_sessions = WebSessions()
+    _install_error_handlers(app)
+
+    from polarsvc.api.routers import admin, blades, catalogue, derived, polars
+
+    for router in (catalogue.router, polars.router, blades.router, derived.router, admin.router):
+        app.include_router(router, prefix=API_PREFIX)
+
+    @app.get(f"{API_PREFIX}/health", tags=["service"])
+    def health() -> dict[str, str]:
+        """Liveness and version."""
+        return {"status": "ok", "version": __version__}
+
+    try:
+        from polarsvc.web.pages import install_pages
+    except ImportError:  # pages not installed in this build
+        pass
+    else:
+        install_pages(app)
+    return app
+
+
+def _detail_response(status: int, detail: object, **extra: object):
+    return json_response({"detail": detail, **extra}, status_code=status)
+
+
+def _install_error_handlers(app: FastAPI) -> None:
+    @app.exception_handler(FormatError)
+    async def format_error(_: Request, exc: FormatError):
+        return _detail_response(
+            422, str(exc), line=getattr(exc, "line", None), field=getattr(exc, "field", None)
+        )
+
+    @app.exception_handler(OutOfRangeError)
+    async def out_of_range(_: Request, exc: OutOfRangeError):
+        return _detail_response(422, str(exc), parameter=exc.parameter)
+
+    @app.exception_handler(AeroError)
+    async def aero_error(_: Request, exc: AeroError):
+        extra = {
+            key: getattr(exc, key)
+            for key in ("row", "field", "parameter")
+            if getattr(exc, key, None) is not None
+        }
+        return _detail_response(422, str(exc), **extra)
+
+    @app.exception_handler(FormatChoiceError)
+    async def format_choice(_: Request, exc: FormatChoiceError):
+        return _detail_response(400, str(exc), parameter="format")
+
+    @app.exception_handler(store_errors.NotFound)
+    async def not_found(_: Request, exc: store_errors.NotFound):
+        return _detail_response(404, str(exc))
+
+    @app.exception_handler(store_errors.Conflict)
+    async def conflict(_: Request, exc: store_errors.Conflict):
+        return _detail_response(409, str(exc))
+
+    @app.exception_handler(store_errors.InvalidValue)
+    async def invalid_value(_: Request, exc: store_errors.InvalidValue):
+        return _detail_response(422, str(exc), field=getattr(exc, "field", None))
+
+    @app.exception_handler(store_errors.InvalidTransition)
+    async def invalid_transition(_: Request, exc: store_errors.InvalidTransition):
+        return _detail_response(409, str(exc))
+
+    @app.exception_handler(store_errors.IntegrityProblem)
+    async def integrity_problem(_: Request, exc: store_errors.IntegrityProblem):
+        return _detail_response(500, f"stored data failed its integrity check: {exc}")
+
+    @app.exception_handler(RequestValidationError)
+    async def validation(_: Request, exc: RequestValidationError):
+        # The echoed input may hold NaN or bytes; keep only locations and messages.
+        errors = [
+            {"loc": [str(part) for part in error.get("loc", ())], "msg": str(error.get("msg"))}
+            for error in exc.errors()
+        ]
+        return _detail_response(422, errors)

@@ -1,0 +1,117 @@
+"""Request dependencies: database sessions and the authenticated principal.
+
+Roles are ordered reader < curator < admin. A token comes as ``Authorization: Bearer <secret>``
+(scripts) or in the HttpOnly session cookie set by the sign-in page (browsers). Reads need a
+reader token unless the server runs with public reads turned on.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from dataclasses import dataclass
+from typing import Annotated
+
+from fastapi import Depends, HTTPException, Request
+from sqlalchemy.orm import Session
+
+from polarsvc.api.settings import Settings
+from polarsvc.store import tokens as token_store
+from polarsvc.store.audit import Actor
+from polarsvc.store.db import session_scope
+
+ROLE_RANK = {"public": 0, "reader": 1, "curator": 2, "admin": 3}
+SESSION_COOKIE = "polarsvc_session"
+
+
+@dataclass(frozen=True)
+class Principal:
+    """Who is asking: the token's name and role (``public`` for anonymous public reads)."""
+
+    name: str
+    role: str
+    remote_addr: str | None
+
+    def actor(self) -> Actor:
+        """The audit trail's record of this principal."""
+        return Actor(name=self.name, role=self.role, remote_addr=self.remote_addr)
+
+
+def get_settings(request: Request) -> Settings:
+    return request.app.state.settings
+
+
+def read_session(request: Request) -> Iterator[Session]:
+    """A session for reading; committed at the end (derived-table cache writes use their own
+    write transaction)."""
+    with session_scope(request.app.state.session_factory, write=False) as session:
+        yield session
+
+
+SettingsDep = Annotated[Settings, Depends(get_settings)]
+ReadSession = Annotated[Session, Depends(read_session)]
+
+
+def _bearer_secret(request: Request) -> str | None:
+    header = request.headers.get("authorization")
+    if header:
+        scheme, _, value = header.partition(" ")
+        if scheme.lower() == "bearer" and value.strip():
+            return value.strip()
+        raise HTTPException(
+            status_code=401,
+            detail="Authorization header must be 'Bearer <token>'",
+            headers={"WWW-Authenticate": "Bearer"},
+        )
+    cookie = request.cookies.get(SESSION_COOKIE)
+    if cookie:
+        return request.app.state.web_sessions.token_for(cookie)
+    return None
+
+
+def _principal(request: Request) -> Principal | None:
+    secret = _bearer_secret(request)
+    if secret is None:
+        return None
+    remote = request.client.host if request.client else None
+    with session_scope(request.app.state.session_factory, write=False) as session:
+        token = token_store.authenticate_token(session, secret=secret)
+        if token is None:
+            raise HTTPException(
+                status_code=401,
+                detail="token is unknown, expired or revoked",
+                headers={"WWW-Authenticate": "Bearer"},
+            )
+        return Principal(name=token.name, role=token.role, remote_addr=remote)
+
+
+def require_role(minimum: str):
+    """A dependency that answers 401 without a valid token and 403 with too weak a role."""
+
+    def dependency(request: Request) -> Principal:
+        settings: Settings = request.app.state.settings
+        if minimum != "reader" and settings.read_only:
+            raise HTTPException(status_code=403, detail="this server is read-only")
+        principal = _principal(request)
+        if principal is None:
+            if minimum == "reader" and settings.public_reads:
+                remote = request.client.host if request.client else None
+                return Principal(name="anonymous", role="public", remote_addr=remote)
+            raise HTTPException(
+                status_code=401,
+                detail=f"this needs a {minimum} token",
+                headers={"WWW-Authenticate": "Bearer"},
+            )
+        if ROLE_RANK[principal.role] < ROLE_RANK[minimum]:
+            raise HTTPException(
+                status_code=403,
+                detail=f"this needs the {minimum} role; "
+                f"token '{principal.name}' is a {principal.role}",
+            )
+        return principal
+
+    return dependency
+
+
+Reader = Annotated[Principal, Depends(require_role("reader"))]
+Curator = Annotated[Principal, Depends(require_role("curator"))]
+Admin = Annotated[Principal, Depends(require_role("admin"))]

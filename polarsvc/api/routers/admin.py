@@ -1,0 +1,94 @@
+"""Token management (admin) and the audit trail (read-only: no endpoint edits it)."""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Query, Request
+
+from polarsvc.api.deps import Admin, Reader, ReadSession
+from polarsvc.api.responses import json_response
+from polarsvc.api.schemas import TokenIn
+from polarsvc.store import audit as audit_store
+from polarsvc.store import tokens as token_store
+from polarsvc.store.db import session_scope
+from polarsvc.store.models import ApiToken, AuditEvent
+
+router = APIRouter(tags=["access and audit"])
+
+
+def token_summary(token: ApiToken) -> dict[str, Any]:
+    """A token's public form: never its secret nor its hash."""
+    return {
+        "name": token.name,
+        "role": token.role,
+        "created_at": token.created_at.isoformat(),
+        "created_by": token.created_by,
+        "expires_at": token.expires_at.isoformat() if token.expires_at else None,
+        "revoked_at": token.revoked_at.isoformat() if token.revoked_at else None,
+    }
+
+
+def event_summary(event: AuditEvent) -> dict[str, Any]:
+    """An audit event's public form."""
+    import json
+
+    return {
+        "id": event.id,
+        "occurred_at": event.occurred_at.isoformat(),
+        "actor": {"name": event.actor_name, "role": event.actor_role},
+        "action": event.action,
+        "object": {"kind": event.object_kind, "key": event.object_key},
+        "before_hash": event.before_hash,
+        "after_hash": event.after_hash,
+        "remote_addr": event.remote_addr,
+        "detail": json.loads(event.detail) if event.detail else {},
+    }
+
+
+@router.post(
+    "/tokens",
+    status_code=201,
+    summary="Create an API token (admin); the secret is shown in this answer only",
+)
+def create_token(body: TokenIn, request: Request, principal: Admin):
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        token, secret = token_store.create_token(
+            session, name=body.name, role=body.role, expires_at=body.expires_at,
+            actor=principal.actor(),
+        )
+        return json_response({**token_summary(token), "secret": secret}, status_code=201)
+
+
+@router.get("/tokens", summary="List tokens (admin); secrets are never shown")
+def list_tokens(session: ReadSession, _: Admin):
+    return json_response([token_summary(t) for t in token_store.list_tokens(session)])
+
+
+@router.delete("/tokens/{name}", summary="Revoke a token (admin)")
+def revoke_token(name: str, request: Request, principal: Admin):
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        token = token_store.revoke_token(session, name=name, actor=principal.actor())
+        return json_response(token_summary(token))
+
+
+@router.get("/audit", summary="The audit trail, oldest first (filter by time, object, actor)")
+def audit_trail(
+    session: ReadSession,
+    _: Reader,
+    since: dt.datetime | None = None,
+    until: dt.datetime | None = None,
+    object: Annotated[str | None, Query(max_length=200)] = None,
+    actor: Annotated[str | None, Query(max_length=200)] = None,
+    limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
+):
+    for name, value in (("since", since), ("until", until)):
+        if value is not None and value.tzinfo is None:
+            from fastapi import HTTPException
+
+            raise HTTPException(422, detail=f"{name} must carry a time zone (e.g. ...Z)")
+    events = audit_store.query_events(
+        session, since=since, until=until, object_key=object, actor=actor, limit=limit
+    )
+    return json_response([event_summary(e) for e in events])

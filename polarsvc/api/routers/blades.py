@@ -1,0 +1,140 @@
+"""Blade definitions, blade sets (station tables of a whole blade) and family blends."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Query, Request
+
+from polarsvc import pipeline, recipes
+from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.responses import choose_format, json_response
+from polarsvc.api.routers.polars import (
+    ApprovedOnlyQuery,
+    FormatQuery,
+    GridStep,
+    extension_from_query,
+)
+from polarsvc.api.schemas import BladeIn
+from polarsvc.api.served import served_response
+from polarsvc.store import blades as blade_store
+from polarsvc.store.db import session_scope
+from polarsvc.store.models import BladeDefinition
+
+router = APIRouter(tags=["blades and blends"])
+
+
+def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> dict[str, Any]:
+    """The public form of a blade revision."""
+    definition = blade_store.blade_definition(blade)
+    summary = {
+        "name": blade.name,
+        "content_hash": blade.content_hash,
+        "family": definition.get("family"),
+        "rotor_radius_m": definition.get("rotor_radius_m"),
+        "stations": len(definition.get("stations", [])),
+        "created_at": blade.created_at.isoformat(),
+        "created_by": blade.created_by,
+    }
+    if with_definition:
+        summary["definition"] = definition
+    return summary
+
+
+@router.get("/blades", summary="List blade definitions (every revision)")
+def list_blades(session: ReadSession, _: Reader):
+    return json_response([blade_summary(b) for b in blade_store.list_blades(session)])
+
+
+@router.post("/blades", status_code=201, summary="Store a blade definition revision")
+def add_blade(blade: BladeIn, request: Request, principal: Curator):
+    definition = blade.model_dump(mode="json", exclude_none=True)
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        row, created = blade_store.store_blade(
+            session, name=blade.name, definition=definition, actor=principal.actor()
+        )
+        return json_response(
+            {**blade_summary(row), "created": created}, status_code=201 if created else 200
+        )
+
+
+@router.get("/blades/{key}", summary="A blade definition: latest revision by name, or by hash")
+def get_blade(key: str, session: ReadSession, _: Reader):
+    return json_response(blade_summary(pipeline.find_blade(session, key), with_definition=True))
+
+
+@router.get(
+    "/blades/{key}/tables",
+    summary="The full set of station tables of a blade (stations x angles)",
+    description=(
+        "Extends every family member to -180..180 deg, interpolates to each station's "
+        "Reynolds number (from the operating point, no induction) and thickness, and applies "
+        "rotational augmentation. JSON arrays cl, cd, cm have one row per station; the CSV "
+        "form is long (station radius, alpha_deg, coefficients)."
+    ),
+)
+def blade_tables(
+    key: str, request: Request, settings: SettingsDep, _: Reader,
+    rotation_model: Annotated[
+        str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
+    ] = "snel",
+    surface: Annotated[str | None, Query(description="default: the blade's own")] = None,
+    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
+    clamp: bool = False,
+    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
+    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
+    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
+    wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
+    rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    format: FormatQuery = None,
+    approved_only: ApprovedOnlyQuery = None,
+):
+    fmt = choose_format(request, format)
+    options = {
+        "surface": surface,
+        "thickness_method": thickness_method,
+        "clamp": clamp,
+        "extension": extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        "rotation": {"model": rotation_model},
+        "step_deg": step_deg,
+        "wind_speed_m_s": wind_speed_m_s,
+        "rotor_speed_rpm": rotor_speed_rpm,
+    }
+    served = pipeline.blade_set(
+        request.app.state.session_factory, blade_key=key, options=options,
+        approved_only=settings.approved_only if approved_only is None else approved_only,
+    )
+    return served_response(request, served, fmt)
+
+
+@router.get(
+    "/families/{name}/blend",
+    summary="A family's full-range table at any thickness and Reynolds number",
+)
+def family_blend(
+    name: str, request: Request, settings: SettingsDep, _: Reader,
+    thickness: Annotated[float, Query(gt=0, le=1, description="t/c as a fraction")],
+    reynolds: Annotated[float, Query(gt=0)],
+    surface: str = "clean",
+    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
+    clamp: bool = False,
+    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
+    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
+    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    format: FormatQuery = None,
+    approved_only: ApprovedOnlyQuery = None,
+):
+    fmt = choose_format(request, format)
+    params = recipes.blend_params(
+        thickness=thickness, reynolds=reynolds, surface=surface,
+        thickness_method=thickness_method, clamp=clamp,
+        extension=extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        step_deg=step_deg,
+    )
+    served = pipeline.family_blend(
+        request.app.state.session_factory, family=name, params=params,
+        approved_only=settings.approved_only if approved_only is None else approved_only,
+    )
+    return served_response(request, served, fmt)

@@ -1,0 +1,74 @@
+"""Families and airfoils."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, Query, Request
+
+from polarsvc.api.deps import Reader, ReadSession
+from polarsvc.api.responses import json_response
+from polarsvc.store import airfoils as airfoil_store
+from polarsvc.store import polars as polar_store
+from polarsvc.store.models import Airfoil, Family
+
+router = APIRouter(tags=["catalogue"])
+
+
+def airfoil_summary(airfoil: Airfoil) -> dict[str, Any]:
+    """The public form of an airfoil."""
+    return {
+        "name": airfoil.name,
+        "family": airfoil.family.name if airfoil.family is not None else None,
+        "thickness": airfoil.thickness,
+        "description": airfoil.description,
+        "has_coordinates": airfoil.coordinates is not None,
+        "created_at": airfoil.created_at.isoformat(),
+    }
+
+
+def family_summary(family: Family) -> dict[str, Any]:
+    """The public form of a family with its airfoils by thickness."""
+    members = sorted(family.airfoils, key=lambda a: a.thickness)
+    return {
+        "name": family.name,
+        "description": family.description,
+        "airfoils": [{"name": a.name, "thickness": a.thickness} for a in members],
+        "created_at": family.created_at.isoformat(),
+    }
+
+
+@router.get("/families", summary="List families with their airfoils")
+def list_families(session: ReadSession, _: Reader):
+    return json_response([family_summary(f) for f in airfoil_store.list_families(session)])
+
+
+@router.get("/families/{name}", summary="One family")
+def get_family(name: str, session: ReadSession, _: Reader):
+    return json_response(family_summary(airfoil_store.get_family(session, name)))
+
+
+@router.get("/airfoils", summary="List airfoils (filter by family, search in names)")
+def list_airfoils(
+    session: ReadSession,
+    _: Reader,
+    family: Annotated[str | None, Query(max_length=200)] = None,
+    search: Annotated[str | None, Query(max_length=200)] = None,
+):
+    rows = airfoil_store.list_airfoils(session, family=family, search=search)
+    return json_response([airfoil_summary(a) for a in rows])
+
+
+@router.get("/airfoils/{name}", summary="One airfoil with its revisions")
+def get_airfoil(name: str, request: Request, session: ReadSession, _: Reader):
+    airfoil = airfoil_store.get_airfoil(session, name)
+    from polarsvc.api.routers.polars import revision_summary
+
+    revisions = polar_store.list_revisions(session, airfoil=name)
+    return json_response(
+        {
+            **airfoil_summary(airfoil),
+            "coordinates": airfoil_store.airfoil_coordinates(airfoil),
+            "revisions": [revision_summary(r) for r in revisions],
+        }
+    )

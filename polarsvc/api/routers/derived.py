@@ -1,0 +1,47 @@
+"""Stored derived tables by hash: the table, its lineage, and verification."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Query, Request
+from fastapi.responses import PlainTextResponse
+
+from polarsvc import lineage, pipeline
+from polarsvc.api.deps import Reader, ReadSession
+from polarsvc.api.responses import choose_format, json_response
+from polarsvc.api.routers.polars import FormatQuery
+from polarsvc.api.served import served_response
+
+router = APIRouter(tags=["derived tables and lineage"])
+
+
+@router.get("/derived/{key}", summary="A cached derived table by content or recipe hash")
+def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = None):
+    fmt = choose_format(request, format)
+    served = pipeline.stored_table(request.app.state.session_factory, key)
+    return served_response(request, served, fmt)
+
+
+@router.get(
+    "/derived/{key}/lineage",
+    summary="The tree of inputs of a derived table, down to stored revisions",
+)
+def get_lineage(
+    key: str,
+    session: ReadSession,
+    _: Reader,
+    format: Annotated[str, Query(pattern="^(json|text)$")] = "json",
+):
+    tree = lineage.derived_node(session, pipeline.find_derived(session, key))
+    if format == "text":
+        return PlainTextResponse(lineage.lineage_text(tree))
+    return json_response(tree)
+
+
+@router.post(
+    "/derived/{key}/verify",
+    summary="Recompute a derived table from its recorded recipe and compare hashes",
+)
+def verify(key: str, request: Request, _: Reader):
+    return json_response(pipeline.verify_derived(request.app.state.session_factory, key))

@@ -1,0 +1,330 @@
+"""Polar revisions: upload, list, read, review, and tables derived from one revision."""
+
+from __future__ import annotations
+
+from typing import Annotated, Any
+
+from fastapi import APIRouter, HTTPException, Query, Request
+
+from polarsvc import pipeline, recipes
+from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.responses import choose_format, json_response, table_response
+from polarsvc.api.schemas import ReviewChange
+from polarsvc.api.served import served_response
+from polarsvc.ingest import store_file
+from polarsvc.store import polars as polar_store
+from polarsvc.store.db import session_scope
+from polarsvc.store.models import PolarRevision
+
+router = APIRouter(tags=["polars"])
+
+TABLE_MEDIA_TYPES = (
+    "text/csv",
+    "text/tab-separated-values",
+    "text/plain",
+    "application/json",
+    "application/octet-stream",
+)
+
+FormatQuery = Annotated[
+    str | None, Query(description="json, csv or bin (else the Accept header decides)")
+]
+ApprovedOnlyQuery = Annotated[
+    bool | None,
+    Query(description="serve only approved revisions (default: the server's setting)"),
+]
+
+
+def revision_summary(revision: PolarRevision) -> dict[str, Any]:
+    """The public form of a revision without its table."""
+    return {
+        "content_hash": revision.content_hash,
+        "airfoil": revision.airfoil.name,
+        "family": revision.airfoil.family.name if revision.airfoil.family else None,
+        "conditions": {
+            "reynolds": revision.reynolds,
+            "mach": revision.mach,
+            "surface": revision.surface,
+            "thickness": revision.airfoil.thickness,
+        },
+        "rows": revision.n_rows,
+        "has_cm": revision.has_cm,
+        "provenance": {
+            key: (value.isoformat() if hasattr(value, "isoformat") else value)
+            for key, value in polar_store.revision_provenance(revision).items()
+        },
+        "supersedes": revision.supersedes.content_hash if revision.supersedes else None,
+        "review": {
+            "state": revision.review_state,
+            "reason": revision.review_reason,
+            "replaced_by": revision.replaced_by.content_hash if revision.replaced_by else None,
+        },
+        "created_at": revision.created_at.isoformat(),
+        "created_by": revision.created_by,
+    }
+
+
+def _approved_only(settings, explicit: bool | None) -> bool:
+    return settings.approved_only if explicit is None else explicit
+
+
+@router.get("/polars", summary="List revisions")
+def list_polars(
+    session: ReadSession,
+    _: Reader,
+    airfoil: Annotated[str | None, Query(max_length=200)] = None,
+    family: Annotated[str | None, Query(max_length=200)] = None,
+    surface: Annotated[str | None, Query(max_length=32)] = None,
+    reynolds: Annotated[float | None, Query(gt=0)] = None,
+    review_state: Annotated[str | None, Query(max_length=16)] = None,
+):
+    rows = polar_store.list_revisions(
+        session, airfoil=airfoil, reynolds=reynolds, surface=surface, review_state=review_state
+    )
+    if family is not None:
+        rows = [r for r in rows if r.airfoil.family and r.airfoil.family.name == family]
+    return json_response([revision_summary(r) for r in rows])
+
+
+@router.post(
+    "/polars",
+    status_code=201,
+    summary="Upload a polar file (CSV, TSV, whitespace text or JSON)",
+    responses={
+        200: {"description": "every polar in the file was already stored (identical)"},
+        201: {"description": "at least one new revision was stored"},
+        413: {"description": "the body exceeds the upload size limit"},
+        415: {"description": "the content type is not a table"},
+        422: {"description": "the file cannot be read; the answer names the line and field"},
+    },
+)
+async def upload_polar(
+    request: Request,
+    settings: SettingsDep,
+    principal: Curator,
+    airfoil: Annotated[str | None, Query(max_length=200)] = None,
+    family: Annotated[str | None, Query(max_length=200)] = None,
+    thickness: Annotated[str | None, Query(max_length=32)] = None,
+    reynolds: Annotated[str | None, Query(max_length=32)] = None,
+    mach: Annotated[str | None, Query(max_length=32)] = None,
+    surface: Annotated[str | None, Query(max_length=32)] = None,
+    source_kind: Annotated[str | None, Query(max_length=32)] = None,
+    reference: Annotated[str | None, Query(max_length=2000)] = None,
+    facility: Annotated[str | None, Query(max_length=2000)] = None,
+    measured_on: Annotated[str | None, Query(max_length=32)] = None,
+    contributor: Annotated[str | None, Query(max_length=2000)] = None,
+    notes: Annotated[str | None, Query(max_length=4000)] = None,
+    angle_unit: Annotated[str | None, Query(max_length=8)] = None,
+    supersedes: Annotated[str | None, Query(min_length=8, max_length=64)] = None,
+    filename: Annotated[str | None, Query(max_length=300)] = None,
+):
+    """The body is the file itself. Query parameters fill metadata the file does not give.
+    The whole file is stored, or nothing."""
+    content_type = (request.headers.get("content-type") or "").split(";")[0].strip().lower()
+    if content_type and content_type not in TABLE_MEDIA_TYPES:
+        raise HTTPException(
+            status_code=415,
+            detail=f"content type {content_type!r} is not a table; "
+            f"use one of {', '.join(TABLE_MEDIA_TYPES)}",
+        )
+    declared = request.headers.get("content-length")
+    if declared and declared.isdigit() and int(declared) > settings.max_upload_bytes:
+        raise HTTPException(
+            status_code=413,
+            detail=f"body of {declared} bytes exceeds the limit of {settings.max_upload_bytes}",
+        )
+    body = bytearray()
+    async for chunk in request.stream():
+        body.extend(chunk)
+        if len(body) > settings.max_upload_bytes:
+            raise HTTPException(
+                status_code=413,
+                detail=f"body exceeds the limit of {settings.max_upload_bytes} bytes",
+            )
+    defaults = {
+        key: value
+        for key, value in {
+            "airfoil": airfoil, "family": family, "thickness": thickness,
+            "reynolds": reynolds, "mach": mach, "surface": surface,
+            "source_kind": source_kind, "reference": reference, "facility": facility,
+            "measured_on": measured_on, "contributor": contributor, "notes": notes,
+            "angle_unit": angle_unit,
+        }.items()
+        if value is not None
+    }
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        outcomes = store_file(
+            session, bytes(body), actor=principal.actor(), filename=filename,
+            content_type=content_type or None, defaults=defaults,
+            max_bytes=settings.max_upload_bytes, supersedes=supersedes,
+        )
+    created = any(o.created for o in outcomes)
+    return json_response(
+        {"stored": [o.as_dict() for o in outcomes]}, status_code=201 if created else 200
+    )
+
+
+@router.get("/polars/{content_hash}", summary="A revision: metadata, provenance and table")
+def get_polar(content_hash: str, session: ReadSession, _: Reader):
+    revision = polar_store.get_revision(session, content_hash)
+    polar = polar_store.load_polar(revision)
+    table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
+    if polar.cm is not None:
+        table["cm"] = polar.cm
+    return json_response({**revision_summary(revision), "table": table})
+
+
+@router.get("/polars/{content_hash}/table", summary="A revision's table as stored")
+def get_polar_table(
+    content_hash: str, request: Request, session: ReadSession, _: Reader,
+    format: FormatQuery = None,
+):
+    fmt = choose_format(request, format)
+    revision = polar_store.get_revision(session, content_hash)
+    polar = polar_store.load_polar(revision)
+    columns = {"cl": polar.cl, "cd": polar.cd}
+    if polar.cm is not None:
+        columns["cm"] = polar.cm
+    meta = {
+        "kind": "stored",
+        "content_hash": revision.content_hash,
+        "airfoil": revision.airfoil.name,
+        "review_state": revision.review_state,
+        "caution": pipeline.CAUTION,
+    }
+    return table_response(
+        request, fmt=fmt, content_hash=revision.content_hash, alpha_deg=polar.alpha_deg,
+        columns=columns, meta=meta,
+    )
+
+
+GridStep = Annotated[float, Query(gt=0.01, le=30, description="angle step of the table [deg]")]
+
+
+def extension_from_query(
+    method: str, aspect_ratio: float | None, cd_max: float | None,
+    alpha_stall_pos_deg: float | None, alpha_stall_neg_deg: float | None,
+    trailing_edge_lift_factor: float,
+) -> dict[str, Any]:
+    return recipes.extension_params(
+        method=method, aspect_ratio=aspect_ratio, cd_max=cd_max,
+        alpha_stall_pos_deg=alpha_stall_pos_deg, alpha_stall_neg_deg=alpha_stall_neg_deg,
+        trailing_edge_lift_factor=trailing_edge_lift_factor,
+    )
+
+
+@router.get("/polars/{content_hash}/resampled", summary="A revision resampled onto a grid")
+def resampled(
+    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG, format: FormatQuery = None,
+    approved_only: ApprovedOnlyQuery = None,
+):
+    fmt = choose_format(request, format)
+    served = pipeline.revision_table(
+        request.app.state.session_factory, revision_key=content_hash, kind="resampled",
+        params={"step_deg": step_deg}, approved_only=_approved_only(settings, approved_only),
+    )
+    return served_response(request, served, fmt)
+
+
+@router.get("/polars/{content_hash}/extended", summary="A revision extended to -180..180 deg")
+def extended(
+    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    method: Annotated[str, Query(description="viterna or flat-plate")] = "viterna",
+    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
+    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
+    alpha_stall_pos_deg: Annotated[float | None, Query(gt=0, lt=90)] = None,
+    alpha_stall_neg_deg: Annotated[float | None, Query(gt=-90, lt=0)] = None,
+    trailing_edge_lift_factor: Annotated[float, Query(ge=0, le=2)] = 0.7,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    format: FormatQuery = None,
+    approved_only: ApprovedOnlyQuery = None,
+):
+    fmt = choose_format(request, format)
+    params = {
+        "extension": extension_from_query(
+            method, aspect_ratio, cd_max, alpha_stall_pos_deg, alpha_stall_neg_deg,
+            trailing_edge_lift_factor,
+        ),
+        "step_deg": step_deg,
+    }
+    served = pipeline.revision_table(
+        request.app.state.session_factory, revision_key=content_hash, kind="extended",
+        params=params, approved_only=_approved_only(settings, approved_only),
+    )
+    return served_response(request, served, fmt)
+
+
+@router.get(
+    "/polars/{content_hash}/augmented",
+    summary="A revision extended to -180..180 deg and rotationally augmented",
+)
+def augmented(
+    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
+    chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
+    model: Annotated[str, Query(description="snel, du-selig or chaviaropoulos-hansen")] = "snel",
+    tip_speed_ratio: Annotated[float | None, Query(gt=0, le=30)] = None,
+    twist_deg: Annotated[float, Query(ge=-90, le=90)] = 0.0,
+    cl_alpha_per_rad: Annotated[float | None, Query(gt=0, le=10)] = None,
+    fade_start_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[0],
+    fade_end_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[1],
+    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
+    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
+    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    format: FormatQuery = None,
+    approved_only: ApprovedOnlyQuery = None,
+):
+    fmt = choose_format(request, format)
+    params = {
+        "extension": extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        "rotation": recipes.rotation_params(
+            model=model, r_over_R=r_over_R, chord_over_r=chord_over_r,
+            tip_speed_ratio=tip_speed_ratio, twist_deg=twist_deg,
+            cl_alpha_per_rad=cl_alpha_per_rad, fade_start_deg=fade_start_deg,
+            fade_end_deg=fade_end_deg,
+        ),
+        "step_deg": step_deg,
+    }
+    served = pipeline.revision_table(
+        request.app.state.session_factory, revision_key=content_hash, kind="augmented",
+        params=params, approved_only=_approved_only(settings, approved_only),
+    )
+    return served_response(request, served, fmt)
+
+
+@router.post("/polars/{content_hash}/review", summary="Approve or deprecate a revision")
+def review_polar(content_hash: str, change: ReviewChange, request: Request, principal: Curator):
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        revision = polar_store.set_review_state(
+            session, content_hash=content_hash, state=change.state, reason=change.reason,
+            replaced_by_hash=change.replaced_by, actor=principal.actor(),
+        )
+        return json_response(revision_summary(revision))
+
+
+@router.get(
+    "/polars/{content_hash}/used-by",
+    summary="Reverse lineage: the derived tables and blade sets computed from a revision",
+)
+def used_by(content_hash: str, session: ReadSession, _: Reader):
+    revision = polar_store.get_revision(session, content_hash)
+    from polarsvc.store import derived as derived_store
+
+    rows = derived_store.derived_using_revision(session, revision_id=revision.id)
+    return json_response(
+        {
+            "revision": revision.content_hash,
+            "derived": [
+                {
+                    "kind": row.kind,
+                    "recipe_hash": row.recipe_hash,
+                    "content_hash": row.content_hash,
+                    "blade": row.blade.name if row.blade else None,
+                    "created_at": row.created_at.isoformat(),
+                }
+                for row in rows
+            ],
+        }
+    )

@@ -1,0 +1,91 @@
+"""Pydantic schemas of request bodies (strict numbers: ``[false]`` is not a float list).
+
+Responses are encoded by orjson from plain structures (see polarsvc.api.responses);
+their shapes are documented in the endpoint descriptions and in the README.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from typing import Annotated, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, model_validator
+
+Number = StrictFloat | StrictInt
+PositiveNumber = Annotated[Number, Field(gt=0, allow_inf_nan=False)]
+FiniteNumber = Annotated[Number, Field(allow_inf_nan=False)]
+
+
+class StrictModel(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+
+class ReviewChange(StrictModel):
+    """A review decision on a polar revision."""
+
+    state: Literal["approved", "deprecated"]
+    reason: Annotated[str, Field(max_length=4000)] | None = None
+    replaced_by: Annotated[str, Field(min_length=8, max_length=64)] | None = None
+
+
+class StationIn(StrictModel):
+    """One blade station."""
+
+    radius_m: PositiveNumber
+    chord_m: PositiveNumber
+    twist_deg: Annotated[Number, Field(ge=-90, le=90, allow_inf_nan=False)]
+    thickness: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] = Field(
+        description="relative thickness t/c as a fraction (0.21, not 21)"
+    )
+
+
+class OperatingPointIn(StrictModel):
+    """Wind speed and rotor speed used for station Reynolds numbers and augmentation."""
+
+    wind_speed_m_s: PositiveNumber
+    rotor_speed_rpm: PositiveNumber
+
+
+class BladeIn(BaseModel):
+    """A blade definition: stations from root to tip, the family whose sections it uses."""
+
+    model_config = ConfigDict(extra="allow", strict=True)
+
+    name: Annotated[str, Field(min_length=1, max_length=200)]
+    family: Annotated[str, Field(min_length=1, max_length=200)]
+    rotor_radius_m: PositiveNumber
+    hub_radius_m: Annotated[Number, Field(ge=0, allow_inf_nan=False)] = 0.0
+    blade_count: Annotated[int, Field(ge=1, le=20)] = 3
+    surface: Literal["clean", "tripped", "rough"] = "clean"
+    operating_point: OperatingPointIn | None = None
+    stations: Annotated[list[StationIn], Field(min_length=2, max_length=500)]
+
+    @model_validator(mode="after")
+    def stations_along_span(self) -> BladeIn:
+        radii = [s.radius_m for s in self.stations]
+        for index in range(1, len(radii)):
+            if radii[index] <= radii[index - 1]:
+                raise ValueError(
+                    f"stations[{index}].radius_m: radii must increase from root to tip "
+                    f"({radii[index - 1]} then {radii[index]})"
+                )
+        if radii[-1] > self.rotor_radius_m * (1 + 1e-9):
+            raise ValueError(
+                f"stations[{len(radii) - 1}].radius_m: {radii[-1]} exceeds rotor_radius_m "
+                f"{self.rotor_radius_m}"
+            )
+        if radii[0] < self.hub_radius_m:
+            raise ValueError(
+                f"stations[0].radius_m: {radii[0]} lies inside hub_radius_m {self.hub_radius_m}"
+            )
+        return self
+
+
+class TokenIn(StrictModel):
+    """A new API token."""
+
+    name: Annotated[str, Field(min_length=1, max_length=200)]
+    role: Literal["reader", "curator", "admin"]
+    expires_at: dt.datetime | None = Field(
+        default=None, description="timezone-aware expiry; none means no expiry"
+    )

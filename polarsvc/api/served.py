@@ -1,0 +1,33 @@
+"""Encoding a :class:`polarsvc.pipeline.ServedTable` as an HTTP response."""
+
+from __future__ import annotations
+
+from fastapi import Request
+from fastapi.responses import Response
+
+from polarsvc.api.responses import table_response
+from polarsvc.pipeline import ServedTable
+
+
+def served_response(request: Request, served: ServedTable, fmt: str) -> Response:
+    """The table with its recipe, hashes and reports; ETag is the content hash."""
+    radii = None
+    stations = served.reports.get("stations") if served.reports else None
+    if served.columns["cl"].ndim == 2 and stations:
+        radii = [float(s["radius_m"]) for s in stations]
+    headers = {
+        "X-Polarsvc-Recipe-Hash": served.recipe_hash,
+        "X-Polarsvc-Cache": "hit" if served.cached else "miss",
+    }
+    if served.deprecated_inputs:
+        headers["X-Polarsvc-Deprecated-Inputs"] = str(len(served.deprecated_inputs))
+    return table_response(
+        request,
+        fmt=fmt,
+        content_hash=served.content_hash,
+        alpha_deg=served.alpha_deg,
+        columns=served.columns,
+        meta=served.meta(),
+        stations_radius_m=radii,
+        extra_headers=headers,
+    )

@@ -1,0 +1,458 @@
+"""The ``polarsvc`` command line: a thin layer over the store, the service and the client.
+
+Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error.
+Local commands (import, export, db, token, review, audit, lineage, verify, bundle) work on
+the database named by ``--database-url`` or ``POLARSVC_DATABASE_URL`` (default: the SQLite
+file ``./polarsvc-data/polarsvc.db``); ``fetch`` talks to a running server.
+"""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import getpass
+import ipaddress
+import json
+import os
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+from polarsvc import __version__
+
+SEED_DIR = Path(__file__).resolve().parent.parent / "seed_polars"
+DEMO_DATABASE = Path("polarsvc-data") / "demo.db"
+
+
+def _stderr(message: str) -> None:
+    print(message, file=sys.stderr, flush=True)
+
+
+def _database_url(args: argparse.Namespace) -> str:
+    from polarsvc.store.db import default_database_url
+
+    return args.database_url or os.environ.get("POLARSVC_DATABASE_URL") or default_database_url()
+
+
+def _local_actor():
+    from polarsvc.store.audit import Actor
+
+    try:
+        user = getpass.getuser()
+    except (KeyError, OSError):
+        user = "unknown"
+    return Actor(name=f"cli:{user}", role="admin", remote_addr="local")
+
+
+def _factory(args: argparse.Namespace, *, upgrade: bool = True):
+    from sqlalchemy.orm import sessionmaker
+
+    from polarsvc.store.db import make_engine, upgrade_database
+
+    engine = make_engine(_database_url(args))
+    if upgrade:
+        upgrade_database(engine)
+    return sessionmaker(engine, expire_on_commit=False)
+
+
+def is_loopback(host: str) -> bool:
+    """Whether ``host`` names only this machine."""
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False
+
+
+# -- serve ---------------------------------------------------------------------------------
+def cmd_serve(args: argparse.Namespace) -> int:
+    import uvicorn
+
+    from polarsvc.api.app import create_app
+    from polarsvc.api.settings import Settings
+
+    public_reads = args.public_reads or args.demo
+    if public_reads and not is_loopback(args.host) and not args.read_only:
+        _stderr(
+            f"refusing public reads with writes open on the non-loopback address {args.host}: "
+            "add --read-only, or listen on 127.0.0.1"
+        )
+        return 2
+    database_url = _database_url(args)
+    if args.demo and not args.database_url:
+        DEMO_DATABASE.parent.mkdir(parents=True, exist_ok=True)
+        for suffix in ("", "-wal", "-shm"):
+            Path(f"{DEMO_DATABASE}{suffix}").unlink(missing_ok=True)
+        database_url = f"sqlite:///{DEMO_DATABASE}"
+    settings = Settings.from_env(
+        database_url=database_url, public_reads=public_reads, read_only=args.read_only,
+        approved_only=args.approved_only or Settings.from_env().approved_only,
+    )
+    if args.demo:
+        secret = _prepare_demo(database_url)
+        _stderr(f"demo database: {database_url} (fresh; demo data loaded, public reads on)")
+        _stderr(f"one-time local admin token (shown once, not stored in clear): {secret}")
+    _stderr(f"polarsvc {__version__} on http://{args.host}:{args.port}/ "
+            f"(API docs: http://{args.host}:{args.port}/api/v1/docs)")
+    uvicorn.run(create_app(settings), host=args.host, port=args.port, log_level=args.log_level)
+    return 0
+
+
+def _prepare_demo(database_url: str) -> str:
+    from sqlalchemy.orm import sessionmaker
+
+    from polarsvc.ingest import load_demo
+    from polarsvc.store import tokens as token_store
+    from polarsvc.store.db import make_engine, session_scope, upgrade_database
+
+    engine = make_engine(database_url)
+    upgrade_database(engine)
+    factory = sessionmaker(engine, expire_on_commit=False)
+    actor = _local_actor()
+    load_demo(factory, SEED_DIR, actor=actor)
+    name = "demo-admin-" + dt.datetime.now(dt.UTC).strftime("%Y%m%dT%H%M%S")
+    with session_scope(factory, write=True) as session:
+        _, secret = token_store.create_token(session, name=name, role="admin", actor=actor)
+    engine.dispose()
+    return secret
+
+
+# -- db ------------------------------------------------------------------------------------
+def cmd_db_upgrade(args: argparse.Namespace) -> int:
+    _factory(args)
+    print(f"database at {_database_url(args)} is at the newest schema")
+    return 0
+
+
+def cmd_db_backup(args: argparse.Namespace) -> int:
+    from polarsvc.store.db import online_backup
+
+    path = online_backup(_database_url(args), args.destination)
+    print(f"backup written to {path}")
+    return 0
+
+
+# -- import / export -----------------------------------------------------------------------
+METADATA_OPTIONS = (
+    "airfoil", "family", "thickness", "reynolds", "mach", "surface", "source_kind",
+    "reference", "facility", "measured_on", "contributor", "notes", "angle_unit",
+)
+
+
+def cmd_import(args: argparse.Namespace) -> int:
+    from polarsvc.ingest import import_files, table_files
+
+    defaults = {k: getattr(args, k) for k in METADATA_OPTIONS if getattr(args, k) is not None}
+    files = table_files(Path(p) for p in args.paths)
+    if not files:
+        _stderr("no table files found")
+        return 1
+    factory = _factory(args)
+    counts = {"stored": 0, "identical": 0, "refused": 0}
+    for index, report in enumerate(
+        import_files(factory, files, actor=_local_actor(), defaults=defaults), start=1
+    ):
+        counts[report.status] += 1
+        detail = (
+            f"refused: {report.error}" if report.error
+            else f"{report.stored} stored, {report.identical} identical"
+        )
+        print(f"[{index}/{len(files)}] {report.path}: {report.status} ({detail})", flush=True)
+    _stderr(
+        f"{len(files)} files: {counts['stored']} stored, {counts['identical']} identical, "
+        f"{counts['refused']} refused"
+    )
+    return 1 if counts["refused"] else 0
+
+
+def cmd_export(args: argparse.Namespace) -> int:
+    from polarsvc.formats import polar_to_csv, polar_to_json
+    from polarsvc.store import polars as polar_store
+    from polarsvc.store.db import session_scope
+
+    destination = Path(args.destination)
+    destination.mkdir(parents=True, exist_ok=True)
+    factory = _factory(args)
+    written = 0
+    with session_scope(factory, write=False) as session:
+        for revision in polar_store.list_revisions(session, airfoil=args.airfoil):
+            if args.family and (revision.airfoil.family is None
+                                or revision.airfoil.family.name != args.family):
+                continue
+            polar = polar_store.load_polar(revision)
+            provenance = polar_store.revision_provenance(revision)
+            family = revision.airfoil.family.name if revision.airfoil.family else None
+            extra = {"family": family} if family else None
+            stem = f"{revision.airfoil.name}_{revision.content_hash[:12]}"
+            if args.format == "json":
+                document = polar_to_json(
+                    polar, airfoil=revision.airfoil.name, provenance=provenance,
+                    extra_metadata=extra,
+                )
+                (destination / f"{stem}.json").write_text(
+                    json.dumps(document, indent=1), encoding="utf-8"
+                )
+            else:
+                text = polar_to_csv(
+                    polar, airfoil=revision.airfoil.name, provenance=provenance,
+                    extra_metadata=extra,
+                )
+                (destination / f"{stem}.csv").write_text(text, encoding="utf-8")
+            written += 1
+    print(f"{written} revisions written to {destination}")
+    return 0
+
+
+# -- fetch (through a running server) -------------------------------------------------------
+def cmd_fetch(args: argparse.Namespace) -> int:
+    import httpx
+
+    server = args.server.rstrip("/") + "/api/v1"
+    params: dict[str, Any] = {"format": args.format}
+    for item in args.param or []:
+        key, sep, value = item.partition("=")
+        if not sep:
+            _stderr(f"--param {item!r}: expected key=value")
+            return 2
+        params[key] = value
+    if args.what == "blade":
+        path = f"/blades/{args.key}/tables"
+    elif args.what == "blend":
+        path = f"/families/{args.key}/blend"
+        params.update(thickness=args.thickness, reynolds=args.reynolds)
+    elif args.what in ("extended", "augmented", "resampled"):
+        path = f"/polars/{args.key}/{args.what}"
+    else:
+        path = f"/derived/{args.key}"
+    headers = {"Authorization": f"Bearer {args.token}"} if args.token else {}
+    response = httpx.get(server + path, params={k: v for k, v in params.items() if v is not None},
+                         headers=headers, timeout=120.0)
+    if response.status_code >= 400:
+        _stderr(f"HTTP {response.status_code}: {response.text}")
+        return 1
+    output = Path(args.output) if args.output else None
+    if output is None:
+        sys.stdout.buffer.write(response.content)
+    else:
+        output.write_bytes(response.content)
+        _stderr(
+            f"wrote {output} ({len(response.content)} bytes; content hash "
+            f"{response.headers.get('X-Polarsvc-Content-Hash')}, recipe "
+            f"{response.headers.get('X-Polarsvc-Recipe-Hash')})"
+        )
+    return 0
+
+
+# -- tokens, review, audit, lineage ----------------------------------------------------------
+def cmd_token(args: argparse.Namespace) -> int:
+    from polarsvc.store import tokens as token_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=args.action != "list") as session:
+        if args.action == "create":
+            expires = None
+            if args.expires_days is not None:
+                expires = dt.datetime.now(dt.UTC) + dt.timedelta(days=args.expires_days)
+            token, secret = token_store.create_token(
+                session, name=args.name, role=args.role, expires_at=expires,
+                actor=_local_actor(),
+            )
+            print(secret)
+            _stderr(f"token '{token.name}' ({token.role}) created; the secret above is shown "
+                    "once and not stored")
+        elif args.action == "revoke":
+            token_store.revoke_token(session, name=args.name, actor=_local_actor())
+            print(f"token '{args.name}' revoked")
+        else:
+            for token in token_store.list_tokens(session):
+                state = "revoked" if token.revoked_at else "active"
+                expiry = token.expires_at.isoformat() if token.expires_at else "never"
+                print(f"{token.name}\t{token.role}\t{state}\texpires {expiry}")
+    return 0
+
+
+def cmd_review(args: argparse.Namespace) -> int:
+    from polarsvc.store import polars as polar_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    state = {"approve": "approved", "deprecate": "deprecated"}[args.action]
+    with session_scope(factory, write=True) as session:
+        revision = polar_store.set_review_state(
+            session, content_hash=args.revision, state=state, reason=args.reason,
+            replaced_by_hash=args.replaced_by, actor=_local_actor(),
+        )
+        print(f"{revision.content_hash}: {revision.review_state}")
+    return 0
+
+
+def cmd_audit(args: argparse.Namespace) -> int:
+    from polarsvc.store import audit as audit_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=False) as session:
+        events = audit_store.query_events(
+            session, since=args.since, until=args.until, object_key=args.object,
+            actor=args.actor, limit=args.limit,
+        )
+        for event in events:
+            print(
+                f"{event.occurred_at.isoformat()}\t{event.actor_name} ({event.actor_role})\t"
+                f"{event.action}\t{event.object_kind}:{event.object_key}\t"
+                f"{event.before_hash or '-'} -> {event.after_hash or '-'}\t"
+                f"{event.remote_addr or '-'}"
+            )
+    return 0
+
+
+def cmd_lineage(args: argparse.Namespace) -> int:
+    from polarsvc import lineage, pipeline
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=False) as session:
+        tree = lineage.derived_node(session, pipeline.find_derived(session, args.key))
+    if args.json:
+        print(json.dumps(tree, indent=1))
+    else:
+        sys.stdout.write(lineage.lineage_text(tree))
+    return 0
+
+
+def cmd_verify(args: argparse.Namespace) -> int:
+    from polarsvc import pipeline
+
+    report = pipeline.verify_derived(_factory(args), args.key)
+    print(json.dumps(report, indent=1))
+    return 0 if report["matches"] else 1
+
+
+def _aware_datetime(text: str) -> dt.datetime:
+    value = dt.datetime.fromisoformat(text)
+    return value if value.tzinfo else value.replace(tzinfo=dt.UTC)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``polarsvc`` command."""
+    parser = argparse.ArgumentParser(
+        prog="polarsvc",
+        description="Section polar store and service for rotor work.",
+    )
+    parser.add_argument("--version", action="version", version=f"polarsvc {__version__}")
+    parser.add_argument("--database-url", help="SQLAlchemy URL (default: POLARSVC_DATABASE_URL "
+                        "or ./polarsvc-data/polarsvc.db)")
+    commands = parser.add_subparsers(dest="command", required=True)
+
+    serve = commands.add_parser("serve", help="run the HTTP service")
+    serve.add_argument("--host", default="127.0.0.1", help="listen address (default loopback)")
+    serve.add_argument("--port", type=int, default=8000)
+    serve.add_argument("--demo", action="store_true",
+                       help="fresh demo database with the demo data; public reads; prints a "
+                       "one-time admin token")
+    serve.add_argument("--public-reads", action="store_true", help="serve reads without a token")
+    serve.add_argument("--read-only", action="store_true", help="refuse every write")
+    serve.add_argument("--approved-only", action="store_true",
+                       help="serve only approved revisions unless a request says otherwise")
+    serve.add_argument("--log-level", default="info")
+    serve.set_defaults(handler=cmd_serve)
+
+    db = commands.add_parser("db", help="database maintenance")
+    db_commands = db.add_subparsers(dest="db_command", required=True)
+    upgrade = db_commands.add_parser("upgrade", help="apply migrations up to the newest schema")
+    upgrade.set_defaults(handler=cmd_db_upgrade)
+    backup = db_commands.add_parser("backup", help="online backup of the SQLite database")
+    backup.add_argument("destination")
+    backup.set_defaults(handler=cmd_db_backup)
+
+    importer = commands.add_parser("import", help="import polar files or folders")
+    importer.add_argument("paths", nargs="+")
+    for option in METADATA_OPTIONS:
+        importer.add_argument("--" + option.replace("_", "-"), dest=option,
+                              help=f"{option} where a file does not state it")
+    importer.set_defaults(handler=cmd_import)
+
+    exporter = commands.add_parser("export", help="write stored revisions to files")
+    exporter.add_argument("destination")
+    exporter.add_argument("--family")
+    exporter.add_argument("--airfoil")
+    exporter.add_argument("--format", choices=("csv", "json"), default="csv")
+    exporter.set_defaults(handler=cmd_export)
+
+    fetch = commands.add_parser("fetch", help="fetch a derived table or blade set from a server")
+    fetch.add_argument("what", choices=("blade", "blend", "extended", "augmented", "resampled",
+                                        "derived"))
+    fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
+    fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER",
+                                                          "http://127.0.0.1:8000"))
+    fetch.add_argument("--token", default=os.environ.get("POLARSVC_TOKEN"))
+    fetch.add_argument("--format", choices=("json", "csv", "bin"), default="csv")
+    fetch.add_argument("--thickness", type=float, help="blend: t/c as a fraction")
+    fetch.add_argument("--reynolds", type=float, help="blend: Reynolds number")
+    fetch.add_argument("--param", action="append", metavar="KEY=VALUE",
+                       help="any other query parameter (repeatable)")
+    fetch.add_argument("-o", "--output", help="file to write (default: standard output)")
+    fetch.set_defaults(handler=cmd_fetch)
+
+    token = commands.add_parser("token", help="create, revoke or list API tokens")
+    token_commands = token.add_subparsers(dest="action", required=True)
+    create = token_commands.add_parser("create")
+    create.add_argument("name")
+    create.add_argument("--role", choices=("reader", "curator", "admin"), required=True)
+    create.add_argument("--expires-days", type=float)
+    create.set_defaults(handler=cmd_token)
+    revoke = token_commands.add_parser("revoke")
+    revoke.add_argument("name")
+    revoke.set_defaults(handler=cmd_token)
+    token_commands.add_parser("list").set_defaults(handler=cmd_token)
+
+    review = commands.add_parser("review", help="approve or deprecate a revision")
+    review_commands = review.add_subparsers(dest="action", required=True)
+    approve = review_commands.add_parser("approve")
+    approve.add_argument("revision")
+    approve.set_defaults(handler=cmd_review, reason=None, replaced_by=None)
+    deprecate = review_commands.add_parser("deprecate")
+    deprecate.add_argument("revision")
+    deprecate.add_argument("--reason", required=True)
+    deprecate.add_argument("--replaced-by")
+    deprecate.set_defaults(handler=cmd_review)
+
+    audit = commands.add_parser("audit", help="query the audit trail")
+    audit.add_argument("--since", type=_aware_datetime, help="ISO time (UTC if no zone)")
+    audit.add_argument("--until", type=_aware_datetime)
+    audit.add_argument("--object", help="object key: a hash, name or token name")
+    audit.add_argument("--actor", help="actor (token) name")
+    audit.add_argument("--limit", type=int, default=1000)
+    audit.set_defaults(handler=cmd_audit)
+
+    lineage = commands.add_parser("lineage", help="where a derived table came from")
+    lineage.add_argument("key", help="content or recipe hash (or unique prefix)")
+    lineage.add_argument("--json", action="store_true")
+    lineage.set_defaults(handler=cmd_lineage)
+
+    verify = commands.add_parser("verify", help="recompute a derived table and compare hashes")
+    verify.add_argument("key")
+    verify.set_defaults(handler=cmd_verify)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``polarsvc`` command."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    from polarsvc.aero.errors import AeroError
+    from polarsvc.formats import FormatError
+    from polarsvc.store.errors import StoreError
+
+    try:
+        return int(args.handler(args))
+    except (AeroError, FormatError, StoreError, ValueError) as exc:
+        _stderr(f"polarsvc {args.command}: {exc}")
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,281 @@
+"""A small client for scripts that feed a rotor solver: tables come back as numpy arrays.
+
+Example::
+
+    from polarsvc.client import PolarClient
+    with PolarClient("http://127.0.0.1:8000", token="psv_...") as client:
+        blade = client.blade_set("skerry-48")
+        cl = blade.cl            # (n_stations, n_angles)
+        print(blade.content_hash, blade.recipe_hash)
+
+Exception tree::
+
+    ClientError
+    +-- ServiceError          any non-success answer; .status_code, .detail
+        +-- AuthError         401 or 403
+        +-- NotFoundError     404
+        +-- RequestRefused    other 4xx (bad input, conflicts, out of range)
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import httpx
+import numpy as np
+
+from polarsvc.aero import Polar
+from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
+
+__all__ = [
+    "AuthError",
+    "ClientError",
+    "DerivedTable",
+    "NotFoundError",
+    "PolarClient",
+    "RequestRefused",
+    "ServiceError",
+]
+
+API_PREFIX = "/api/v1"
+
+
+class ClientError(Exception):
+    """Base of every error raised by :mod:`polarsvc.client`."""
+
+
+class ServiceError(ClientError):
+    """The service answered with an error status."""
+
+    def __init__(self, status_code: int, detail: Any):
+        self.status_code = status_code
+        self.detail = detail
+        super().__init__(f"HTTP {status_code}: {detail}")
+
+
+class AuthError(ServiceError):
+    """401 (no valid token) or 403 (role too weak)."""
+
+
+class NotFoundError(ServiceError):
+    """404: no such airfoil, family, revision, blade or derived table."""
+
+
+class RequestRefused(ServiceError):
+    """Another 4xx answer: bad input, a conflict, data out of range."""
+
+
+@dataclass(frozen=True)
+class DerivedTable:
+    """A table from the service: angles [deg], coefficient arrays (1-D for one section, or
+    stations x angles for a blade set) and the metadata (recipe, hashes, reports)."""
+
+    alpha_deg: np.ndarray
+    cl: np.ndarray
+    cd: np.ndarray
+    cm: np.ndarray | None
+    meta: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def content_hash(self) -> str:
+        return str(self.meta.get("content_hash"))
+
+    @property
+    def recipe_hash(self) -> str | None:
+        return self.meta.get("recipe_hash")
+
+    def to_polar(self, station: int | None = None) -> Polar:
+        """The table (or one station of a blade set) as a :class:`polarsvc.aero.Polar`."""
+        if self.cl.ndim == 2:
+            if station is None:
+                raise ValueError("a blade set holds several stations: pass station=<index>")
+            cm = None if self.cm is None else self.cm[station]
+            return Polar(self.alpha_deg, self.cl[station], self.cd[station], cm,
+                         assume_degrees=True)
+        return Polar(self.alpha_deg, self.cl, self.cd, self.cm, assume_degrees=True)
+
+
+def _raise_for(response: httpx.Response) -> None:
+    if response.status_code < 400:
+        return
+    try:
+        detail = response.json().get("detail", response.text)
+    except ValueError:
+        detail = response.text
+    if response.status_code in (401, 403):
+        raise AuthError(response.status_code, detail)
+    if response.status_code == 404:
+        raise NotFoundError(response.status_code, detail)
+    if response.status_code < 500:
+        raise RequestRefused(response.status_code, detail)
+    raise ServiceError(response.status_code, detail)
+
+
+def _table_from_binary(payload: bytes) -> DerivedTable:
+    arrays, meta = decode_binary(payload)
+    return DerivedTable(
+        alpha_deg=arrays["alpha_deg"],
+        cl=arrays["cl"],
+        cd=arrays["cd"],
+        cm=arrays.get("cm"),
+        meta=meta,
+    )
+
+
+class PolarClient:
+    """Client of a polarsvc server.
+
+    Parameters
+    ----------
+    base_url : str
+        Server address, e.g. ``http://127.0.0.1:8000``.
+    token : str, optional
+        API token (reader for reads, curator for uploads).
+    transport : httpx.BaseTransport, optional
+        Swappable transport (tests pass the application in-process).
+    timeout : float
+        Seconds per request.
+    """
+
+    def __init__(
+        self,
+        base_url: str = "http://127.0.0.1:8000",
+        *,
+        token: str | None = None,
+        transport: httpx.BaseTransport | None = None,
+        timeout: float = 60.0,
+    ):
+        headers = {"Authorization": f"Bearer {token}"} if token else {}
+        self._http = httpx.Client(
+            base_url=base_url.rstrip("/") + API_PREFIX,
+            headers=headers,
+            transport=transport,
+            timeout=timeout,
+        )
+
+    def __enter__(self) -> PolarClient:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def close(self) -> None:
+        """Close the connection pool."""
+        self._http.close()
+
+    # -- plumbing --------------------------------------------------------------------------
+    def _get_json(self, path: str, **params: Any) -> Any:
+        response = self._http.get(path, params=_clean(params))
+        _raise_for(response)
+        return response.json()
+
+    def _get_table(self, path: str, **params: Any) -> DerivedTable:
+        response = self._http.get(
+            path, params=_clean({**params, "format": "bin"}), headers={"Accept": BINARY_MEDIA_TYPE}
+        )
+        _raise_for(response)
+        return _table_from_binary(response.content)
+
+    # -- catalogue -------------------------------------------------------------------------
+    def families(self) -> list[dict[str, Any]]:
+        """All families with their airfoils."""
+        return self._get_json("/families")
+
+    def airfoils(self, *, family: str | None = None, search: str | None = None) -> list[dict]:
+        """Airfoils, optionally of one family or matching a search text."""
+        return self._get_json("/airfoils", family=family, search=search)
+
+    def polars(self, **filters: Any) -> list[dict[str, Any]]:
+        """Revision summaries; filters: airfoil, family, surface, reynolds, review_state."""
+        return self._get_json("/polars", **filters)
+
+    def polar(self, content_hash: str) -> Polar:
+        """A stored revision's table as a :class:`Polar` (with its conditions)."""
+        info = self._get_json(f"/polars/{content_hash}")
+        table = info["table"]
+        conditions = info["conditions"]
+        return Polar(
+            table["alpha_deg"], table["cl"], table["cd"], table.get("cm"),
+            reynolds=conditions.get("reynolds"), mach=conditions.get("mach", 0.0),
+            thickness=conditions.get("thickness"), surface=conditions.get("surface", "clean"),
+            assume_degrees=True,
+        )
+
+    def revision(self, content_hash: str) -> dict[str, Any]:
+        """A revision's metadata, provenance and review state."""
+        return self._get_json(f"/polars/{content_hash}")
+
+    # -- derived tables --------------------------------------------------------------------
+    def extended(self, content_hash: str, **params: Any) -> DerivedTable:
+        """A revision extended to -180..180 deg (params: method, aspect_ratio, cd_max, step_deg)."""
+        return self._get_table(f"/polars/{content_hash}/extended", **params)
+
+    def augmented(self, content_hash: str, **params: Any) -> DerivedTable:
+        """A revision extended and rotationally augmented (params: model, r_over_R,
+        chord_over_r, tip_speed_ratio, twist_deg, ...)."""
+        return self._get_table(f"/polars/{content_hash}/augmented", **params)
+
+    def blend(self, family: str, *, thickness: float, reynolds: float, **params: Any
+              ) -> DerivedTable:
+        """A family's full-range table at a relative thickness (fraction) and Reynolds number."""
+        return self._get_table(
+            f"/families/{family}/blend", thickness=thickness, reynolds=reynolds, **params
+        )
+
+    def blade_set(self, blade: str, **params: Any) -> DerivedTable:
+        """The station tables of a stored blade definition (arrays are stations x angles)."""
+        return self._get_table(f"/blades/{blade}/tables", **params)
+
+    def derived(self, content_hash: str) -> DerivedTable:
+        """A derived table or blade set by its content or recipe hash."""
+        return self._get_table(f"/derived/{content_hash}")
+
+    def lineage(self, content_hash: str) -> dict[str, Any]:
+        """The tree of inputs of a derived table, down to stored revisions."""
+        return self._get_json(f"/derived/{content_hash}/lineage")
+
+    def verify(self, content_hash: str) -> dict[str, Any]:
+        """Recompute a derived table from its recipe and compare hashes."""
+        response = self._http.post(f"/derived/{content_hash}/verify")
+        _raise_for(response)
+        return response.json()
+
+    # -- writes ----------------------------------------------------------------------------
+    def upload(self, source: str | Path | bytes, *, content_type: str | None = None,
+               **metadata: Any) -> dict[str, Any]:
+        """Upload a polar file (CSV, TSV, text or JSON); metadata fills what the file lacks."""
+        if isinstance(source, bytes):
+            body, name = source, None
+        else:
+            path = Path(source)
+            body, name = path.read_bytes(), path.name
+        if content_type is None:
+            content_type = "application/json" if (name or "").endswith(".json") else "text/csv"
+        response = self._http.post(
+            "/polars", content=body, params=_clean({**metadata, "filename": name}),
+            headers={"Content-Type": content_type},
+        )
+        _raise_for(response)
+        return response.json()
+
+    def add_blade(self, definition: dict[str, Any]) -> dict[str, Any]:
+        """Store a blade definition (a new revision unless identical)."""
+        response = self._http.post("/blades", json=definition)
+        _raise_for(response)
+        return response.json()
+
+    def review(self, content_hash: str, *, state: str, reason: str | None = None,
+               replaced_by: str | None = None) -> dict[str, Any]:
+        """Approve or deprecate a revision (curator)."""
+        response = self._http.post(
+            f"/polars/{content_hash}/review",
+            json=_clean({"state": state, "reason": reason, "replaced_by": replaced_by}),
+        )
+        _raise_for(response)
+        return response.json()
+
+
+def _clean(params: dict[str, Any]) -> dict[str, Any]:
+    return {key: value for key, value in params.items() if value is not None}

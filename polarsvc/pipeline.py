@@ -1,0 +1,430 @@
+"""Serving derived tables: choose the stored inputs, build the recipe, look it up in the
+cache, compute it with the numeric core on a miss, store it, and recompute it on demand.
+
+This is the one place that joins :mod:`polarsvc.store` and :mod:`polarsvc.recipes`; the API,
+the pages and the command line all call it.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
+
+from polarsvc import recipes
+from polarsvc.aero.errors import InsufficientDataError
+from polarsvc.hashing import recipe_hash as compute_recipe_hash
+from polarsvc.hashing import table_content_hash
+from polarsvc.store import blades as blade_store
+from polarsvc.store import derived as derived_store
+from polarsvc.store import polars as polar_store
+from polarsvc.store.airfoils import get_family
+from polarsvc.store.audit import Actor
+from polarsvc.store.db import session_scope
+from polarsvc.store.errors import NotFound
+from polarsvc.store.models import Airfoil, BladeDefinition, DerivedTable, PolarRevision
+
+CACHE_ACTOR = Actor(name="derived-cache", role="admin", remote_addr=None)
+"""The actor recorded when the service caches a table it computed for a reader."""
+
+CAUTION = (
+    "Section tables feed load and energy calculations for machines whose failure can hurt "
+    "people. Validate them against measured data; design use follows IEC 61400-1, local "
+    "codes and certification practice, under a licensed engineer's judgement."
+)
+
+
+class NotApproved(NotFound):
+    """Serving is restricted to approved data and the revision (or family) has none."""
+
+
+@dataclass(frozen=True)
+class InputSummary:
+    """One stored revision a derived table used."""
+
+    content_hash: str
+    airfoil: str
+    thickness: float
+    reynolds: float | None
+    surface: str
+    review_state: str
+    replaced_by: str | None = None
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "revision": self.content_hash,
+            "airfoil": self.airfoil,
+            "thickness": self.thickness,
+            "reynolds": self.reynolds,
+            "surface": self.surface,
+            "review_state": self.review_state,
+            "replaced_by": self.replaced_by,
+        }
+
+
+@dataclass(frozen=True)
+class ServedTable:
+    """A derived table ready to encode: arrays plus everything its response carries."""
+
+    kind: str
+    recipe: dict[str, Any]
+    recipe_hash: str
+    content_hash: str
+    alpha_deg: np.ndarray
+    columns: dict[str, np.ndarray]
+    reports: dict[str, Any]
+    inputs: tuple[InputSummary, ...]
+    blade: dict[str, Any] | None = None
+    cached: bool = False
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def deprecated_inputs(self) -> list[str]:
+        return [i.content_hash for i in self.inputs if i.review_state == "deprecated"]
+
+    def meta(self) -> dict[str, Any]:
+        """The metadata every derived response carries (JSON-able)."""
+        meta: dict[str, Any] = {
+            "kind": self.kind,
+            "content_hash": self.content_hash,
+            "recipe_hash": self.recipe_hash,
+            "recipe": self.recipe,
+            "inputs": [i.as_dict() for i in self.inputs],
+            "draws_on_deprecated": bool(self.deprecated_inputs),
+            "deprecated_inputs": self.deprecated_inputs,
+            "reports": self.reports,
+            "conventions": {
+                "alpha": "deg",
+                "cm": "about the quarter chord, nose-up positive",
+                "thickness": "fraction t/c",
+            },
+            "caution": CAUTION,
+        }
+        if self.blade is not None:
+            meta["blade"] = self.blade
+        meta.update(self.extra)
+        return meta
+
+
+def _summary(revision: PolarRevision) -> InputSummary:
+    return InputSummary(
+        content_hash=revision.content_hash,
+        airfoil=revision.airfoil.name,
+        thickness=revision.airfoil.thickness,
+        reynolds=revision.reynolds,
+        surface=revision.surface,
+        review_state=revision.review_state,
+        replaced_by=revision.replaced_by.content_hash if revision.replaced_by else None,
+    )
+
+
+def _from_row(
+    row: DerivedTable, inputs: Sequence[InputSummary], blade: dict[str, Any] | None,
+    cached: bool,
+) -> ServedTable:
+    alpha, columns = derived_store.derived_arrays(row)
+    return ServedTable(
+        kind=row.kind,
+        recipe=derived_store.derived_recipe(row),
+        recipe_hash=row.recipe_hash,
+        content_hash=row.content_hash,
+        alpha_deg=alpha,
+        columns=columns,
+        reports=json.loads(row.reports) if row.reports else {},
+        inputs=tuple(inputs),
+        blade=blade,
+        cached=cached,
+    )
+
+
+@dataclass(frozen=True)
+class ResolvedInputs:
+    """Everything a computation needs from storage, read in one session: the input
+    revisions' tables, ids and summaries, and the blade definition of a blade set."""
+
+    polars: dict[str, Any]
+    revision_ids: list[int]
+    summaries: tuple[InputSummary, ...]
+    blade_id: int | None = None
+    blade_definition: dict[str, Any] | None = None
+    blade_info: dict[str, Any] | None = None
+
+
+def resolve_inputs(
+    revisions: Sequence[PolarRevision], blade: BladeDefinition | None = None
+) -> ResolvedInputs:
+    """Read the input revisions (and blade) while their session is open."""
+    return ResolvedInputs(
+        polars={r.content_hash: polar_store.load_polar(r) for r in revisions},
+        revision_ids=[r.id for r in revisions],
+        summaries=tuple(_summary(r) for r in revisions),
+        blade_id=blade.id if blade is not None else None,
+        blade_definition=blade_store.blade_definition(blade) if blade is not None else None,
+        blade_info=_blade_info(blade),
+    )
+
+
+def get_or_compute(
+    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
+) -> ServedTable:
+    """The table of ``recipe``: from the cache, or computed, stored and returned."""
+    key = compute_recipe_hash(recipe)
+    with session_scope(factory, write=False) as session:
+        row = derived_store.get_derived(session, recipe_hash=key)
+        if row is not None:
+            return _from_row(row, inputs.summaries, inputs.blade_info, cached=True)
+    definition = inputs.blade_definition
+    result = recipes.execute_recipe(
+        recipe,
+        load_revision=inputs.polars.__getitem__,
+        load_blade=(lambda _hash: definition) if definition is not None else None,
+    )
+    reports = json.loads(json.dumps(result.reports, default=_json_default))
+    with session_scope(factory, write=True) as session:
+        row, created = derived_store.put_derived(
+            session,
+            recipe=recipe,
+            kind=recipe["kind"],
+            alpha_deg=result.alpha_deg,
+            columns=result.columns,
+            input_revision_ids=inputs.revision_ids,
+            blade_id=inputs.blade_id,
+            reports=reports,
+            actor=CACHE_ACTOR,
+        )
+        content_hash = row.content_hash
+    return ServedTable(
+        kind=recipe["kind"],
+        recipe=recipe,
+        recipe_hash=key,
+        content_hash=content_hash,
+        alpha_deg=result.alpha_deg,
+        columns=result.columns,
+        reports=reports,
+        inputs=inputs.summaries,
+        blade=inputs.blade_info,
+        cached=not created,
+    )
+
+
+def _json_default(value: Any) -> Any:
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    raise TypeError(f"cannot encode {type(value).__name__}")
+
+
+def _blade_info(blade: BladeDefinition | None) -> dict[str, Any] | None:
+    if blade is None:
+        return None
+    return {"name": blade.name, "content_hash": blade.content_hash}
+
+
+# -- choosing inputs -----------------------------------------------------------------------
+def _check_approved(revision: PolarRevision, approved_only: bool) -> None:
+    if approved_only and revision.review_state != "approved":
+        raise NotApproved(
+            "approved polar revision",
+            f"{revision.content_hash} (it is {revision.review_state}; "
+            "pass approved_only=false to use it)",
+        )
+
+
+def select_family_members(
+    session: Session, *, family: str, surface: str, approved_only: bool
+) -> list[PolarRevision]:
+    """The revisions a family blend or blade set draws on.
+
+    For each (airfoil, Reynolds number, surface) the current revision is taken: not
+    superseded by another candidate, and not deprecated while a non-deprecated one exists
+    (a deprecated revision is used only where nothing else holds that condition, and the
+    response says so). With ``approved_only`` only approved revisions are candidates.
+    """
+    family_row = get_family(session, family)
+    statement = (
+        select(PolarRevision)
+        .join(Airfoil)
+        .where(Airfoil.family_id == family_row.id, PolarRevision.surface == surface)
+        .order_by(Airfoil.thickness, PolarRevision.reynolds, PolarRevision.id)
+    )
+    candidates = list(session.scalars(statement).all())
+    if approved_only:
+        candidates = [r for r in candidates if r.review_state == "approved"]
+    superseded = {r.supersedes_id for r in candidates if r.supersedes_id is not None}
+    chosen: dict[tuple[int, float | None], PolarRevision] = {}
+    for revision in candidates:
+        if revision.id in superseded:
+            continue
+        key = (revision.airfoil_id, revision.reynolds)
+        current = chosen.get(key)
+        if current is None or _preference(revision) >= _preference(current):
+            chosen[key] = revision
+    if not chosen:
+        qualifier = "approved " if approved_only else ""
+        raise InsufficientDataError(
+            f"family {family!r} has no {qualifier}revisions with surface {surface!r}"
+        )
+    return sorted(
+        chosen.values(), key=lambda r: (r.airfoil.thickness, r.reynolds or 0.0, r.id)
+    )
+
+
+def _preference(revision: PolarRevision) -> tuple[int, int]:
+    return (0 if revision.review_state == "deprecated" else 1, revision.id)
+
+
+# -- the served kinds ----------------------------------------------------------------------
+def revision_table(
+    factory: sessionmaker[Session],
+    *,
+    revision_key: str,
+    kind: str,
+    params: Mapping[str, Any],
+    approved_only: bool,
+) -> ServedTable:
+    """A stored revision resampled, extended or augmented (``kind``)."""
+    with session_scope(factory, write=False) as session:
+        revision = polar_store.get_revision(session, revision_key)
+        _check_approved(revision, approved_only)
+        inputs = resolve_inputs([revision])
+    recipe = recipes.make_recipe(kind, revisions=list(inputs.polars), params=params)
+    return get_or_compute(factory, recipe, inputs)
+
+
+def family_blend(
+    factory: sessionmaker[Session],
+    *,
+    family: str,
+    params: Mapping[str, Any],
+    approved_only: bool,
+) -> ServedTable:
+    """A family's table at one thickness and Reynolds number (``params`` as in
+    :func:`polarsvc.recipes.blend_family`)."""
+    with session_scope(factory, write=False) as session:
+        members = select_family_members(
+            session, family=family, surface=params["surface"], approved_only=approved_only
+        )
+        inputs = resolve_inputs(members)
+    recipe = recipes.make_recipe("blended", revisions=list(inputs.polars), params=params)
+    served = get_or_compute(factory, recipe, inputs)
+    return _with_extra(served, {"family": family})
+
+
+def blade_set(
+    factory: sessionmaker[Session],
+    *,
+    blade_key: str,
+    options: Mapping[str, Any],
+    approved_only: bool,
+) -> ServedTable:
+    """The station tables of a stored blade (name for the latest revision, or hash).
+
+    ``options`` are the keywords of :func:`polarsvc.recipes.blade_set_params`.
+    """
+    with session_scope(factory, write=False) as session:
+        blade = find_blade(session, blade_key)
+        definition = blade_store.blade_definition(blade)
+        params = recipes.blade_set_params(definition, **options)
+        members = select_family_members(
+            session, family=definition["family"], surface=params["surface"],
+            approved_only=approved_only,
+        )
+        inputs = resolve_inputs(members, blade)
+        blade_hash = blade.content_hash
+    recipe = recipes.make_recipe(
+        "blade-set", revisions=list(inputs.polars), params=params, blade=blade_hash
+    )
+    served = get_or_compute(factory, recipe, inputs)
+    return _with_extra(served, {"family": definition["family"]})
+
+
+def find_blade(session: Session, key: str) -> BladeDefinition:
+    try:
+        return blade_store.latest_blade(session, key)
+    except NotFound:
+        if not _looks_like_hash(key):
+            raise
+        return blade_store.get_blade(session, key)
+
+
+def _looks_like_hash(key: str) -> bool:
+    return len(key) >= 8 and all(c in "0123456789abcdef" for c in key.lower())
+
+
+def _with_extra(served: ServedTable, extra: dict[str, Any]) -> ServedTable:
+    return ServedTable(**{**served.__dict__, "extra": {**served.extra, **extra}})
+
+
+# -- stored derived tables: lookup, lineage, verification --------------------------------
+def find_derived(session: Session, key: str) -> DerivedTable:
+    """A cached derived table by recipe hash or content hash (full, or a unique prefix of
+    at least 8 hex digits)."""
+    return derived_store.find_derived(session, key)
+
+
+def stored_table(factory: sessionmaker[Session], key: str) -> ServedTable:
+    """A cached derived table as stored (no recomputation)."""
+    with session_scope(factory, write=False) as session:
+        row = find_derived(session, key)
+        inputs = [_summary(r) for r in row.inputs]
+        return _from_row(row, inputs, _blade_info(row.blade), cached=True)
+
+
+def verify_derived(factory: sessionmaker[Session], key: str) -> dict[str, Any]:
+    """Recompute a cached table from its recorded recipe and the stored revisions.
+
+    Reports whether the recomputed content hash equals the stored one, and whether every
+    stored input still hashes to its recorded revision hash (a tampered input fails).
+    """
+    with session_scope(factory, write=False) as session:
+        row = find_derived(session, key)
+        recipe = derived_store.derived_recipe(row)
+        problems: list[str] = []
+        polars = {}
+        for revision in row.inputs:
+            try:
+                polar_store.verify_revision(revision)
+            except Exception as exc:  # IntegrityProblem, or undecodable data
+                problems.append(str(exc))
+            polars[revision.content_hash] = polar_store.load_polar(revision)
+        definition = None
+        if row.blade is not None:
+            definition = blade_store.blade_definition(row.blade)
+            recomputed_blade = blade_store.recompute_blade_hash(row.blade)
+            if recomputed_blade != row.blade.content_hash:
+                problems.append(
+                    f"blade {row.blade.content_hash} now hashes to {recomputed_blade}"
+                )
+        stored_hash = row.content_hash
+        recorded_version = recipe.get("software", {}).get("version")
+    missing = [h for h in recipe["inputs"]["revisions"] if h not in polars]
+    if missing:
+        problems.append(f"recipe input {missing[0]} is not among the recorded inputs")
+        recomputed_hash = None
+    else:
+        result = recipes.execute_recipe(
+            recipe,
+            load_revision=polars.__getitem__,
+            load_blade=(lambda _h: definition) if definition is not None else None,
+        )
+        recomputed_hash = table_content_hash(result.alpha_deg, *result.columns.values())
+        if recomputed_hash != stored_hash:
+            problems.append(
+                f"recomputed content hash {recomputed_hash} differs from stored {stored_hash}"
+            )
+    current_version = recipes.software_stamp()["version"]
+    return {
+        "recipe_hash": row.recipe_hash,
+        "stored_content_hash": stored_hash,
+        "recomputed_content_hash": recomputed_hash,
+        "matches": not problems,
+        "problems": problems,
+        "recorded_software_version": recorded_version,
+        "current_software_version": current_version,
+    }

@@ -1,0 +1,400 @@
+"""Recipes: the recorded, hashable description of how a derived table is made from stored
+revisions, and their execution with the numeric core.
+
+A recipe is a plain JSON-able mapping::
+
+    {
+      "schema": "polarsvc-recipe/1",
+      "kind": "resampled" | "extended" | "augmented" | "blended" | "blade-set",
+      "software": {"name": "polarsvc", "version": "<version>"},
+      "inputs": {"revisions": ["<sha256>", ...], "blade": "<sha256>" | null},
+      "params": {...}            # every parameter of every step, defaults written out
+    }
+
+Its hash (:func:`polarsvc.hashing.recipe_hash`) keys the derived-table cache, and the
+recipe stored beside a derived table is enough to recompute it (verification). Execution is
+pure: revisions and blade definitions are supplied by loader callables; nothing here touches
+storage. The parameter builders (:func:`extension_params`, :func:`rotation_params`, ...) are
+the one place where defaults are written out, for the API, the command line and the pages.
+
+Steps per kind (each step is one function of :mod:`polarsvc.aero`):
+
+- ``resampled``: resample the stored table onto the grid (within its own angle range).
+- ``extended``: extend_full_range, then resample onto the grid.
+- ``augmented``: extend_full_range, augment_rotation, then resample onto the grid.
+- ``blended``: the family pipeline of :func:`polarsvc.aero.build_blade_tables` at a single
+  section without rotation (extend each member, resample, log-Re then thickness
+  interpolation).
+- ``blade-set``: :func:`polarsvc.aero.build_blade_tables` over the stored blade's stations,
+  with station Reynolds numbers from the operating point
+  (:func:`polarsvc.aero.station_reynolds`).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from polarsvc import __version__, aero
+from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
+from polarsvc.aero.errors import ParameterError, UnknownMethodError
+from polarsvc.aero.extension import DEFAULT_EXTENSION_STEP_DEG, DEFAULT_TRAILING_EDGE_LIFT_FACTOR
+
+RECIPE_SCHEMA = "polarsvc-recipe/1"
+RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
+
+DEFAULT_STEP_DEG = 0.5
+"""Default angle step of served tables [deg] (721 angles over -180..180)."""
+
+DEFAULT_FADE_DEG = (30.0, 50.0)
+"""Rotational augmentation fully applied up to 30 deg, zero from 50 deg (common practice,
+no source; see domain notes)."""
+
+
+@dataclass(frozen=True)
+class DerivedResult:
+    """A computed table: angles [deg], named coefficient arrays (1-D, or stations x angles for
+    a blade set) and what the steps reported (join angles, clamps, station conditions)."""
+
+    alpha_deg: np.ndarray
+    columns: dict[str, np.ndarray]
+    reports: dict[str, Any] = field(default_factory=dict)
+
+
+def software_stamp() -> dict[str, str]:
+    """The software identity recorded in every recipe."""
+    return {"name": "polarsvc", "version": __version__}
+
+
+def _optional_float(name: str, value: Any) -> float | None:
+    if value is None:
+        return None
+    number = float(value)
+    if not math.isfinite(number):
+        raise ParameterError(name, f"must be finite, got {value!r}")
+    return number
+
+
+def extension_params(
+    *,
+    method: str = "viterna",
+    aspect_ratio: float | None = None,
+    cd_max: float | None = None,
+    alpha_stall_pos_deg: float | None = None,
+    alpha_stall_neg_deg: float | None = None,
+    trailing_edge_lift_factor: float = DEFAULT_TRAILING_EDGE_LIFT_FACTOR,
+    step_deg: float = DEFAULT_EXTENSION_STEP_DEG,
+) -> dict[str, Any]:
+    """Keywords of :func:`polarsvc.aero.extend_full_range`, defaults written out."""
+    if method not in aero.EXTENSION_METHODS:
+        raise UnknownMethodError("method", method, aero.EXTENSION_METHODS)
+    return {
+        "method": method,
+        "aspect_ratio": _optional_float("aspect_ratio", aspect_ratio),
+        "cd_max": _optional_float("cd_max", cd_max),
+        "alpha_stall_pos_deg": _optional_float("alpha_stall_pos_deg", alpha_stall_pos_deg),
+        "alpha_stall_neg_deg": _optional_float("alpha_stall_neg_deg", alpha_stall_neg_deg),
+        "trailing_edge_lift_factor": float(trailing_edge_lift_factor),
+        "step_deg": float(step_deg),
+    }
+
+
+def rotation_params(
+    *,
+    model: str = "snel",
+    r_over_R: float | None = None,
+    chord_over_r: float | None = None,
+    tip_speed_ratio: float | None = None,
+    twist_deg: float = 0.0,
+    cl_alpha_per_rad: float | None = None,
+    fade_start_deg: float = DEFAULT_FADE_DEG[0],
+    fade_end_deg: float = DEFAULT_FADE_DEG[1],
+    station: bool = True,
+) -> dict[str, Any]:
+    """Keywords of :func:`polarsvc.aero.augment_rotation`, defaults written out.
+
+    With ``station=False`` (blade sets) the station quantities come from the blade and
+    only the model settings are kept.
+    """
+    if model not in aero.ROTATION_MODELS:
+        raise UnknownMethodError("model", model, aero.ROTATION_MODELS)
+    params: dict[str, Any] = {
+        "model": model,
+        "cl_alpha_per_rad": _optional_float("cl_alpha_per_rad", cl_alpha_per_rad),
+        "fade_start_deg": float(fade_start_deg),
+        "fade_end_deg": float(fade_end_deg),
+    }
+    if station:
+        if r_over_R is None or chord_over_r is None:
+            missing = "r_over_R" if r_over_R is None else "chord_over_r"
+            raise ParameterError(missing, "is required for rotational augmentation")
+        params.update(
+            r_over_R=float(r_over_R),
+            chord_over_r=float(chord_over_r),
+            tip_speed_ratio=_optional_float("tip_speed_ratio", tip_speed_ratio),
+            twist_deg=float(twist_deg),
+        )
+    return params
+
+
+def make_recipe(
+    kind: str,
+    *,
+    revisions: Sequence[str],
+    params: Mapping[str, Any],
+    blade: str | None = None,
+) -> dict[str, Any]:
+    """Assemble a recipe (see module docstring); ``revisions`` keep their given order."""
+    if kind not in RECIPE_KINDS:
+        raise UnknownMethodError("kind", kind, RECIPE_KINDS)
+    return {
+        "schema": RECIPE_SCHEMA,
+        "kind": kind,
+        "software": software_stamp(),
+        "inputs": {"revisions": list(revisions), "blade": blade},
+        "params": dict(params),
+    }
+
+
+def _single_table(polar: aero.Polar, params: Mapping[str, Any], kind: str) -> aero.Polar:
+    if kind in ("extended", "augmented"):
+        extension = dict(params["extension"])
+        method = extension.pop("method")
+        polar = aero.extend_full_range(polar, method, **extension)
+    if kind == "augmented":
+        rotation = dict(params["rotation"])
+        model = rotation.pop("model")
+        polar = aero.augment_rotation(polar, model, **rotation)
+    step = params.get("step_deg")
+    if step is not None:
+        grid = aero.uniform_grid(float(step))
+        inside = grid[(grid >= polar.alpha_deg[0]) & (grid <= polar.alpha_deg[-1])]
+        polar = aero.resample(polar, alpha_deg=inside)
+    return polar
+
+
+def _result_from_polar(polar: aero.Polar) -> DerivedResult:
+    columns = {"cl": np.asarray(polar.cl), "cd": np.asarray(polar.cd)}
+    if polar.cm is not None:
+        columns["cm"] = np.asarray(polar.cm)
+    return DerivedResult(
+        alpha_deg=np.asarray(polar.alpha_deg),
+        columns=columns,
+        reports={"conditions": polar.conditions(), "steps": [dict(s) for s in polar.history]},
+    )
+
+
+def _tables_result(tables: aero.BladeTables, reports: dict[str, Any]) -> DerivedResult:
+    columns = {"cl": tables.cl, "cd": tables.cd}
+    if tables.cm is not None:
+        columns["cm"] = tables.cm
+    return DerivedResult(alpha_deg=tables.alpha_deg, columns=columns, reports=reports)
+
+
+def _family_keywords(params: Mapping[str, Any]) -> dict[str, Any]:
+    extension = dict(params["extension"])
+    return {
+        "grid_step_deg": float(params["step_deg"]),
+        "surface": params["surface"],
+        "extension_method": extension["method"],
+        "aspect_ratio": extension["aspect_ratio"],
+        "cd_max": extension["cd_max"],
+        "trailing_edge_lift_factor": extension["trailing_edge_lift_factor"],
+        "extension_step_deg": extension["step_deg"],
+        "thickness_method": params["thickness_method"],
+        "clamp": bool(params["clamp"]),
+    }
+
+
+def blend_family(members: Sequence[aero.Polar], params: Mapping[str, Any]) -> DerivedResult:
+    """A family's full-range table at one thickness and Reynolds number (no rotation)."""
+    stations = aero.BladeStations(
+        radius_m=[1.0], chord_m=[1.0], twist_deg=[0.0],
+        thickness=[float(params["thickness"])], reynolds=[float(params["reynolds"])],
+    )
+    tables = aero.build_blade_tables(
+        members, stations, rotor_radius_m=1.0, rotation_model=None, **_family_keywords(params)
+    )
+    report = {
+        key: value
+        for key, value in tables.stations[0].items()
+        if key not in ("station", "radius_m")
+    }
+    flat = aero.BladeTables(
+        tables.alpha_deg, tables.cl[0], tables.cd[0],
+        None if tables.cm is None else tables.cm[0], tables.stations, tables.recipe,
+    )
+    return _tables_result(flat, {"section": report})
+
+
+def blade_stations(blade: Mapping[str, Any], params: Mapping[str, Any]) -> aero.BladeStations:
+    """Station arrays of a blade definition, with Reynolds numbers from the operating point."""
+    stations = blade["stations"]
+    radius = np.array([s["radius_m"] for s in stations], dtype=np.float64)
+    chord = np.array([s["chord_m"] for s in stations], dtype=np.float64)
+    operating = params["operating_point"]
+    air = params["air"]
+    reynolds = aero.station_reynolds(
+        radius, chord, operating["wind_speed_m_s"], operating["rotor_speed_rpm"],
+        rho_kg_m3=air["rho_kg_m3"], mu_pa_s=air["mu_pa_s"],
+    )
+    return aero.BladeStations(
+        radius_m=radius,
+        chord_m=chord,
+        twist_deg=np.array([s["twist_deg"] for s in stations], dtype=np.float64),
+        thickness=np.array([s["thickness"] for s in stations], dtype=np.float64),
+        reynolds=reynolds,
+    )
+
+
+def blade_tip_speed_ratio(blade: Mapping[str, Any], params: Mapping[str, Any]) -> float:
+    """Omega R / V of the operating point [-]."""
+    operating = params["operating_point"]
+    omega = 2.0 * math.pi * float(operating["rotor_speed_rpm"]) / 60.0
+    return omega * float(blade["rotor_radius_m"]) / float(operating["wind_speed_m_s"])
+
+
+def blade_set_params(
+    blade: Mapping[str, Any],
+    *,
+    surface: str | None = None,
+    thickness_method: str = "linear",
+    clamp: bool = False,
+    extension: Mapping[str, Any] | None = None,
+    rotation: Mapping[str, Any] | None = None,
+    step_deg: float = DEFAULT_STEP_DEG,
+    wind_speed_m_s: float | None = None,
+    rotor_speed_rpm: float | None = None,
+    rho_kg_m3: float = ISA_DENSITY_KG_M3,
+    mu_pa_s: float = ISA_VISCOSITY_PA_S,
+) -> dict[str, Any]:
+    """Parameters of a blade-set recipe; the blade's own surface and operating point are
+    the defaults. ``rotation=None`` means the default model (Snel); pass
+    ``{"model": "none"}`` for none."""
+    operating = dict(blade.get("operating_point") or {})
+    if wind_speed_m_s is not None:
+        operating["wind_speed_m_s"] = float(wind_speed_m_s)
+    if rotor_speed_rpm is not None:
+        operating["rotor_speed_rpm"] = float(rotor_speed_rpm)
+    for key in ("wind_speed_m_s", "rotor_speed_rpm"):
+        if key not in operating:
+            raise ParameterError(key, "is needed: the blade definition has no operating point")
+    if rotation is not None and rotation.get("model") == "none":
+        rotation_block = None
+    else:
+        rotation_block = rotation_params(**dict(rotation or {}), station=False)
+    return {
+        "surface": surface or blade.get("surface", "clean"),
+        "thickness_method": thickness_method,
+        "clamp": bool(clamp),
+        "extension": dict(extension or extension_params()),
+        "rotation": rotation_block,
+        "step_deg": float(step_deg),
+        "operating_point": {
+            "wind_speed_m_s": float(operating["wind_speed_m_s"]),
+            "rotor_speed_rpm": float(operating["rotor_speed_rpm"]),
+        },
+        "air": {"rho_kg_m3": float(rho_kg_m3), "mu_pa_s": float(mu_pa_s)},
+    }
+
+
+def build_blade_set(
+    members: Sequence[aero.Polar], blade: Mapping[str, Any], params: Mapping[str, Any]
+) -> DerivedResult:
+    """Station tables of a blade definition (see :func:`blade_set_params`)."""
+    stations = blade_stations(blade, params)
+    rotation = params.get("rotation")
+    rotation_keywords: dict[str, Any] = {"rotation_model": None}
+    if rotation is not None:
+        rotation_keywords = {
+            "rotation_model": rotation["model"],
+            "cl_alpha_per_rad": rotation["cl_alpha_per_rad"],
+            "fade_start_deg": rotation["fade_start_deg"],
+            "fade_end_deg": rotation["fade_end_deg"],
+        }
+    tables = aero.build_blade_tables(
+        members,
+        stations,
+        rotor_radius_m=float(blade["rotor_radius_m"]),
+        tip_speed_ratio=blade_tip_speed_ratio(blade, params),
+        **rotation_keywords,
+        **_family_keywords(params),
+    )
+    station_reports = []
+    for definition, report in zip(blade["stations"], tables.stations, strict=True):
+        station_reports.append(
+            {
+                **report,
+                "chord_m": float(definition["chord_m"]),
+                "twist_deg": float(definition["twist_deg"]),
+                "r_over_R": float(definition["radius_m"]) / float(blade["rotor_radius_m"]),
+                "chord_over_r": float(definition["chord_m"]) / float(definition["radius_m"]),
+            }
+        )
+    return _tables_result(
+        tables,
+        {"stations": station_reports, "tip_speed_ratio": blade_tip_speed_ratio(blade, params)},
+    )
+
+
+def execute_recipe(
+    recipe: Mapping[str, Any],
+    *,
+    load_revision: Callable[[str], aero.Polar],
+    load_blade: Callable[[str], Mapping[str, Any]] | None = None,
+) -> DerivedResult:
+    """Compute the table a recipe describes.
+
+    Parameters
+    ----------
+    recipe : mapping
+        A recipe as made by :func:`make_recipe` (or read back from storage).
+    load_revision : callable
+        Returns the stored :class:`polarsvc.aero.Polar` for a revision hash.
+    load_blade : callable, optional
+        Returns the stored blade definition mapping for a blade hash (blade sets only).
+    """
+    if recipe.get("schema") != RECIPE_SCHEMA:
+        raise ParameterError("schema", f"unknown recipe schema {recipe.get('schema')!r}")
+    kind = recipe.get("kind")
+    if kind not in RECIPE_KINDS:
+        raise UnknownMethodError("kind", kind, RECIPE_KINDS)
+    params = recipe["params"]
+    members = [load_revision(h) for h in recipe["inputs"]["revisions"]]
+    if kind in ("resampled", "extended", "augmented"):
+        if len(members) != 1:
+            raise ParameterError("inputs", f"a {kind} table takes one revision, got {len(members)}")
+        return _result_from_polar(_single_table(members[0], params, kind))
+    if kind == "blended":
+        return blend_family(members, params)
+    if load_blade is None:
+        raise ParameterError("load_blade", "a blade-set recipe needs a blade loader")
+    return build_blade_set(members, load_blade(recipe["inputs"]["blade"]), params)
+
+
+def blend_params(
+    *,
+    thickness: float,
+    reynolds: float,
+    surface: str = "clean",
+    thickness_method: str = "linear",
+    clamp: bool = False,
+    extension: Mapping[str, Any] | None = None,
+    step_deg: float = DEFAULT_STEP_DEG,
+) -> dict[str, Any]:
+    """Parameters of a family-blend recipe, defaults written out."""
+    if thickness_method not in aero.THICKNESS_METHODS:
+        raise UnknownMethodError("thickness_method", thickness_method, aero.THICKNESS_METHODS)
+    return {
+        "thickness": float(thickness),
+        "reynolds": float(reynolds),
+        "surface": surface,
+        "thickness_method": thickness_method,
+        "clamp": bool(clamp),
+        "extension": dict(extension or extension_params()),
+        "step_deg": float(step_deg),
+    }

@@ -1,0 +1,107 @@
+"""The real thing: `polarsvc serve --demo` as a separate process on a loopback port, used by
+the Python client and plain HTTP."""
+
+from __future__ import annotations
+
+import os
+import re
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import httpx
+import numpy as np
+import pytest
+
+from polarsvc.client import PolarClient, RequestRefused
+
+REPO = Path(__file__).resolve().parents[2]
+
+
+def free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def demo_server(tmp_path_factory):
+    workdir = tmp_path_factory.mktemp("server")
+    port = free_port()
+    log = (workdir / "server.log").open("w+")
+    env = {**os.environ, "PYTHONUNBUFFERED": "1"}
+    env.pop("POLARSVC_DATABASE_URL", None)
+    process = subprocess.Popen(
+        [sys.executable, "-m", "polarsvc.cli", "serve", "--demo", "--port", str(port),
+         "--log-level", "warning"],
+        cwd=workdir, stdout=log, stderr=subprocess.STDOUT, env=env,
+    )
+    base = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            if process.poll() is not None:
+                log.seek(0)
+                pytest.fail(f"server exited: {log.read()}")
+            try:
+                if httpx.get(base + "/api/v1/health", timeout=1).status_code == 200:
+                    break
+            except httpx.HTTPError:
+                time.sleep(0.2)
+        else:
+            pytest.fail("server did not answer within 60 s")
+        log.seek(0)
+        match = re.search(r"admin token \(shown once, not stored in clear\): (psv_\S+)", log.read())
+        assert match, "the demo start prints a one-time admin token"
+        yield base, match.group(1), workdir
+    finally:
+        process.terminate()
+        process.wait(timeout=20)
+        log.close()
+
+
+def test_demo_server_serves_blade_sets_to_the_client(demo_server):
+    base, admin_token, _ = demo_server
+    with PolarClient(base) as client:  # public reads are on in the demo
+        blade = client.blade_set("skerry-48")
+        assert blade.cl.shape == (20, 721)
+        assert blade.alpha_deg[0] == -180.0 and blade.alpha_deg[-1] == 180.0
+        again = client.blade_set("skerry-48")
+        np.testing.assert_array_equal(again.cd, blade.cd)
+        assert again.content_hash == blade.content_hash
+        station = blade.to_polar(station=10)
+        assert station.covers_full_range
+        tree = client.lineage(blade.content_hash)
+        assert len(tree["inputs"]) == 21
+        assert client.verify(blade.content_hash)["matches"] is True
+        with pytest.raises(RequestRefused):
+            client.blend("skua", thickness=0.25, reynolds=1e9)
+    with PolarClient(base, token=admin_token) as admin:
+        summary = admin.polars(airfoil="SKUA-250", surface="clean")[0]
+        reviewed = admin.review(summary["content_hash"], state="approved")
+        assert reviewed["review"]["state"] == "approved"
+
+
+def test_demo_server_refuses_writes_without_a_token(demo_server):
+    base, _, _ = demo_server
+    answer = httpx.post(base + "/api/v1/polars", content=b"alpha_deg,cl,cd\n",
+                        headers={"Content-Type": "text/csv"})
+    assert answer.status_code == 401
+
+
+def test_cli_fetch_writes_a_blade_set_file(demo_server, tmp_path):
+    base, _, _ = demo_server
+    output = tmp_path / "skerry-48.csv"
+    result = subprocess.run(
+        [sys.executable, "-m", "polarsvc.cli", "fetch", "blade", "skerry-48", "--server", base,
+         "--format", "csv", "-o", str(output)],
+        capture_output=True, text=True, timeout=60,
+    )
+    assert result.returncode == 0, result.stderr
+    lines = output.read_text().splitlines()
+    assert lines[0].startswith("# ")
+    data = [x for x in lines if not x.startswith("#")]
+    assert data[0] == "radius_m,alpha_deg,cl,cd,cm"
+    assert len(data) == 1 + 20 * 721
