@@ -7,12 +7,13 @@ the pages and the command line all call it.
 
 from __future__ import annotations
 
-import json
+import dataclasses
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
+import orjson
 from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
@@ -20,6 +21,7 @@ from polarsvc import recipes
 from polarsvc.aero.errors import InsufficientDataError
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
 from polarsvc.hashing import table_content_hash
+from polarsvc.lru import LruCache
 from polarsvc.store import blades as blade_store
 from polarsvc.store import derived as derived_store
 from polarsvc.store import polars as polar_store
@@ -135,7 +137,7 @@ def _from_row(
         content_hash=row.content_hash,
         alpha_deg=alpha,
         columns=columns,
-        reports=json.loads(row.reports) if row.reports else {},
+        reports=orjson.loads(row.reports) if row.reports else {},
         inputs=tuple(inputs),
         blade=blade,
         cached=cached,
@@ -144,10 +146,11 @@ def _from_row(
 
 @dataclass(frozen=True)
 class ResolvedInputs:
-    """Everything a computation needs from storage, read in one session: the input
-    revisions' tables, ids and summaries, and the blade definition of a blade set."""
+    """What a request needs from storage before the cache lookup, read in one session: the
+    input revisions' hashes, ids and summaries, and the blade definition of a blade set.
+    The tables themselves are read only on a cache miss (:func:`load_input_polars`)."""
 
-    polars: dict[str, Any]
+    revision_hashes: list[str]
     revision_ids: list[int]
     summaries: tuple[InputSummary, ...]
     blade_id: int | None = None
@@ -158,9 +161,9 @@ class ResolvedInputs:
 def resolve_inputs(
     revisions: Sequence[PolarRevision], blade: BladeDefinition | None = None
 ) -> ResolvedInputs:
-    """Read the input revisions (and blade) while their session is open."""
+    """Read the input revisions' identities (and the blade) while their session is open."""
     return ResolvedInputs(
-        polars={r.content_hash: polar_store.load_polar(r) for r in revisions},
+        revision_hashes=[r.content_hash for r in revisions],
         revision_ids=[r.id for r in revisions],
         summaries=tuple(_summary(r) for r in revisions),
         blade_id=blade.id if blade is not None else None,
@@ -169,22 +172,64 @@ def resolve_inputs(
     )
 
 
+def load_input_polars(session: Session, hashes: Sequence[str]) -> dict[str, Any]:
+    """The stored tables of the given revisions, by hash."""
+    rows = session.scalars(
+        select(PolarRevision).where(PolarRevision.content_hash.in_(list(hashes)))
+    ).all()
+    return {row.content_hash: polar_store.load_polar(row) for row in rows}
+
+
+RECENT_TABLES: LruCache[ServedTable] = LruCache(max_entries=64)
+"""The most recently served derived tables by (database, recipe hash): a repeated request
+skips reading and re-checking the stored payload. A recipe hash names one immutable table;
+verification always reads the database."""
+
+PREPARED_FAMILIES: LruCache[Any] = LruCache(max_entries=16)
+"""Families extended and resampled once, by member revisions and extension settings
+(content-addressed), shared by every blade set and blend computed from them."""
+
+
+def _database_key(factory: sessionmaker[Session]) -> str:
+    bind = factory.kw.get("bind")
+    return bind.url.render_as_string(hide_password=True) if bind is not None else ""
+
+
 def get_or_compute(
     factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
 ) -> ServedTable:
     """The table of ``recipe``: from the cache, or computed, stored and returned."""
     key = compute_recipe_hash(recipe)
+    memo_key = (_database_key(factory), key)
+    recent = RECENT_TABLES.peek(memo_key)
+    if recent is not None:
+        return dataclasses.replace(
+            recent, inputs=inputs.summaries, blade=inputs.blade_info, cached=True
+        )
     with session_scope(factory, write=False) as session:
         row = derived_store.get_derived(session, recipe_hash=key)
         if row is not None:
-            return _from_row(row, inputs.summaries, inputs.blade_info, cached=True)
+            served = _from_row(row, inputs.summaries, inputs.blade_info, cached=True)
+            RECENT_TABLES.put(memo_key, served)
+            return served
+    loaded: dict[str, Any] = {}
+
+    def load_revision(content_hash: str) -> Any:
+        if not loaded:  # read the tables only when a prepared family is not at hand
+            with session_scope(factory, write=False) as session:
+                loaded.update(load_input_polars(session, inputs.revision_hashes))
+        return loaded[content_hash]
+
     definition = inputs.blade_definition
     result = recipes.execute_recipe(
         recipe,
-        load_revision=inputs.polars.__getitem__,
+        load_revision=load_revision,
         load_blade=(lambda _hash: definition) if definition is not None else None,
+        family_cache=PREPARED_FAMILIES.get,
     )
-    reports = json.loads(json.dumps(result.reports, default=_json_default))
+    reports = orjson.loads(
+        orjson.dumps(result.reports, option=orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS)
+    )
     with session_scope(factory, write=True) as session:
         row, created = derived_store.put_derived(
             session,
@@ -198,7 +243,7 @@ def get_or_compute(
             actor=CACHE_ACTOR,
         )
         content_hash = row.content_hash
-    return ServedTable(
+    served = ServedTable(
         kind=recipe["kind"],
         recipe=recipe,
         recipe_hash=key,
@@ -210,14 +255,8 @@ def get_or_compute(
         blade=inputs.blade_info,
         cached=not created,
     )
-
-
-def _json_default(value: Any) -> Any:
-    if isinstance(value, np.generic):
-        return value.item()
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    raise TypeError(f"cannot encode {type(value).__name__}")
+    RECENT_TABLES.put(memo_key, served)
+    return served
 
 
 def _blade_info(blade: BladeDefinition | None) -> dict[str, Any] | None:
@@ -293,7 +332,7 @@ def revision_table(
         revision = polar_store.get_revision(session, revision_key)
         _check_approved(revision, approved_only)
         inputs = resolve_inputs([revision])
-    recipe = recipes.make_recipe(kind, revisions=list(inputs.polars), params=params)
+    recipe = recipes.make_recipe(kind, revisions=inputs.revision_hashes, params=params)
     return get_or_compute(factory, recipe, inputs)
 
 
@@ -311,7 +350,7 @@ def family_blend(
             session, family=family, surface=params["surface"], approved_only=approved_only
         )
         inputs = resolve_inputs(members)
-    recipe = recipes.make_recipe("blended", revisions=list(inputs.polars), params=params)
+    recipe = recipes.make_recipe("blended", revisions=inputs.revision_hashes, params=params)
     served = get_or_compute(factory, recipe, inputs)
     return _with_extra(served, {"family": family})
 
@@ -338,7 +377,7 @@ def blade_set(
         inputs = resolve_inputs(members, blade)
         blade_hash = blade.content_hash
     recipe = recipes.make_recipe(
-        "blade-set", revisions=list(inputs.polars), params=params, blade=blade_hash
+        "blade-set", revisions=inputs.revision_hashes, params=params, blade=blade_hash
     )
     served = get_or_compute(factory, recipe, inputs)
     return _with_extra(served, {"family": definition["family"]})
@@ -358,7 +397,7 @@ def _looks_like_hash(key: str) -> bool:
 
 
 def _with_extra(served: ServedTable, extra: dict[str, Any]) -> ServedTable:
-    return ServedTable(**{**served.__dict__, "extra": {**served.extra, **extra}})
+    return dataclasses.replace(served, extra={**served.extra, **extra})
 
 
 # -- stored derived tables: lookup, lineage, verification --------------------------------

@@ -43,6 +43,7 @@ from polarsvc import __version__, aero
 from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
 from polarsvc.aero.extension import DEFAULT_EXTENSION_STEP_DEG, DEFAULT_TRAILING_EDGE_LIFT_FACTOR
+from polarsvc.hashing import recipe_hash as compute_recipe_hash
 
 RECIPE_SCHEMA = "polarsvc-recipe/1"
 RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
@@ -195,7 +196,11 @@ def _tables_result(tables: aero.BladeTables, reports: dict[str, Any]) -> Derived
     return DerivedResult(alpha_deg=tables.alpha_deg, columns=columns, reports=reports)
 
 
-def _family_keywords(params: Mapping[str, Any]) -> dict[str, Any]:
+FamilyCache = Callable[[str, Callable[[], "aero.PreparedFamily"]], "aero.PreparedFamily"]
+"""``cache(key, make)``: the prepared family under ``key``, made by ``make()`` when absent."""
+
+
+def _prepare_keywords(params: Mapping[str, Any]) -> dict[str, Any]:
     extension = dict(params["extension"])
     return {
         "grid_step_deg": float(params["step_deg"]),
@@ -205,19 +210,37 @@ def _family_keywords(params: Mapping[str, Any]) -> dict[str, Any]:
         "cd_max": extension["cd_max"],
         "trailing_edge_lift_factor": extension["trailing_edge_lift_factor"],
         "extension_step_deg": extension["step_deg"],
-        "thickness_method": params["thickness_method"],
-        "clamp": bool(params["clamp"]),
     }
 
 
-def blend_family(members: Sequence[aero.Polar], params: Mapping[str, Any]) -> DerivedResult:
+def prepared_family(
+    recipe: Mapping[str, Any],
+    load_revision: Callable[[str], aero.Polar],
+    family_cache: FamilyCache | None = None,
+) -> aero.PreparedFamily:
+    """The recipe's family members extended and resampled once
+    (:func:`polarsvc.aero.prepare_family`), through ``family_cache`` when given: the same
+    members and extension settings serve every blade and blend."""
+    hashes = list(recipe["inputs"]["revisions"])
+    keywords = _prepare_keywords(recipe["params"])
+
+    def make() -> aero.PreparedFamily:
+        return aero.prepare_family([load_revision(h) for h in hashes], **keywords)
+
+    if family_cache is None:
+        return make()
+    return family_cache(compute_recipe_hash({"revisions": hashes, **keywords}), make)
+
+
+def blend_family(family: aero.PreparedFamily, params: Mapping[str, Any]) -> DerivedResult:
     """A family's full-range table at one thickness and Reynolds number (no rotation)."""
     stations = aero.BladeStations(
         radius_m=[1.0], chord_m=[1.0], twist_deg=[0.0],
         thickness=[float(params["thickness"])], reynolds=[float(params["reynolds"])],
     )
     tables = aero.build_blade_tables(
-        members, stations, rotor_radius_m=1.0, rotation_model=None, **_family_keywords(params)
+        family, stations, rotor_radius_m=1.0, rotation_model=None,
+        thickness_method=params["thickness_method"], clamp=bool(params["clamp"]),
     )
     report = {
         key: value
@@ -303,7 +326,9 @@ def blade_set_params(
 
 
 def build_blade_set(
-    members: Sequence[aero.Polar], blade: Mapping[str, Any], params: Mapping[str, Any]
+    family: Sequence[aero.Polar] | aero.PreparedFamily,
+    blade: Mapping[str, Any],
+    params: Mapping[str, Any],
 ) -> DerivedResult:
     """Station tables of a blade definition (see :func:`blade_set_params`)."""
     stations = blade_stations(blade, params)
@@ -316,13 +341,16 @@ def build_blade_set(
             "fade_start_deg": rotation["fade_start_deg"],
             "fade_end_deg": rotation["fade_end_deg"],
         }
+    if not isinstance(family, aero.PreparedFamily):
+        family = aero.prepare_family(family, **_prepare_keywords(params))
     tables = aero.build_blade_tables(
-        members,
+        family,
         stations,
         rotor_radius_m=float(blade["rotor_radius_m"]),
         tip_speed_ratio=blade_tip_speed_ratio(blade, params),
+        thickness_method=params["thickness_method"],
+        clamp=bool(params["clamp"]),
         **rotation_keywords,
-        **_family_keywords(params),
     )
     station_reports = []
     for definition, report in zip(blade["stations"], tables.stations, strict=True):
@@ -346,6 +374,7 @@ def execute_recipe(
     *,
     load_revision: Callable[[str], aero.Polar],
     load_blade: Callable[[str], Mapping[str, Any]] | None = None,
+    family_cache: FamilyCache | None = None,
 ) -> DerivedResult:
     """Compute the table a recipe describes.
 
@@ -357,6 +386,9 @@ def execute_recipe(
         Returns the stored :class:`polarsvc.aero.Polar` for a revision hash.
     load_blade : callable, optional
         Returns the stored blade definition mapping for a blade hash (blade sets only).
+    family_cache : callable, optional
+        Reuses prepared families across recipes (see :func:`prepared_family`); without it
+        everything is computed afresh (as verification does).
     """
     if recipe.get("schema") != RECIPE_SCHEMA:
         raise ParameterError("schema", f"unknown recipe schema {recipe.get('schema')!r}")
@@ -364,16 +396,17 @@ def execute_recipe(
     if kind not in RECIPE_KINDS:
         raise UnknownMethodError("kind", kind, RECIPE_KINDS)
     params = recipe["params"]
-    members = [load_revision(h) for h in recipe["inputs"]["revisions"]]
+    hashes = recipe["inputs"]["revisions"]
     if kind in ("resampled", "extended", "augmented"):
-        if len(members) != 1:
-            raise ParameterError("inputs", f"a {kind} table takes one revision, got {len(members)}")
-        return _result_from_polar(_single_table(members[0], params, kind))
+        if len(hashes) != 1:
+            raise ParameterError("inputs", f"a {kind} table takes one revision, got {len(hashes)}")
+        return _result_from_polar(_single_table(load_revision(hashes[0]), params, kind))
+    family = prepared_family(recipe, load_revision, family_cache)
     if kind == "blended":
-        return blend_family(members, params)
+        return blend_family(family, params)
     if load_blade is None:
         raise ParameterError("load_blade", "a blade-set recipe needs a blade loader")
-    return build_blade_set(members, load_blade(recipe["inputs"]["blade"]), params)
+    return build_blade_set(family, load_blade(recipe["inputs"]["blade"]), params)
 
 
 def blend_params(

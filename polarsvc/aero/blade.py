@@ -49,6 +49,7 @@ from polarsvc.aero.interpolation import (
     _pairs,
     _pchip_blend,
     bracket_weights,
+    from_log10,
 )
 from polarsvc.aero.polar import Polar
 from polarsvc.aero.resample import resample, uniform_grid
@@ -336,7 +337,9 @@ def build_blade_tables(
     reynolds_reports = []
     re_pairs = []
     for thickness, (keys, rows) in zip(values, family.groups, strict=True):
-        weights = bracket_weights(np.log10(keys), log_re, clamp=clamp, parameter="reynolds")
+        weights = bracket_weights(
+            np.log10(keys), log_re, clamp=clamp, parameter="reynolds", shown_as=from_log10
+        )
         index, weight = _pairs(weights)
         re_pairs.append((index + rows.start, weight))  # indices into family.tables
         reynolds_reports.append((float(thickness), keys, weights))
@@ -414,14 +417,29 @@ def _station_reports(
         )
         for thickness, keys, w in reynolds_reports
     ]
+    re_pairs = [
+        (
+            [str(k) for k in keys.tolist()],
+            w.lower.tolist(),
+            w.upper.tolist(),
+            w.weight_lower.tolist(),
+            w.weight_upper.tolist(),
+        )
+        for _, keys, w in reynolds_reports
+    ]
     rot = {k: v.tolist() for k, v in rotation.items()}
     reports = []
     for s in range(count):
         thickness_weights = {}
-        if w_lower[s] > 0.0:
-            thickness_weights[str(thicknesses[lower[s]].item())] = w_lower[s]
-        if upper[s] != lower[s] and w_upper[s] > 0.0:
-            thickness_weights[str(thicknesses[upper[s]].item())] = w_upper[s]
+        reynolds_weights = {}
+        for g, weight in ((lower[s], w_lower[s]), (upper[s], w_upper[s])):
+            if weight > 0.0:
+                name = str(thicknesses[g].item())
+                thickness_weights[name] = weight
+                keys, re_lo, re_hi, re_wl, re_wu = re_pairs[g]
+                reynolds_weights[name] = {
+                    keys[i]: w for i, w in ((re_lo[s], re_wl[s]), (re_hi[s], re_wu[s])) if w > 0
+                }
         report: dict[str, Any] = {
             "station": s,
             "radius_m": blade.radius_m[s].item(),
@@ -431,6 +449,7 @@ def _station_reports(
             "thickness_weights": thickness_weights,
             "reynolds_requested": blade.reynolds[s].item(),
             "reynolds_used": {str(t): used[s] for t, used, _ in per_member},
+            "reynolds_weights": reynolds_weights,
             "reynolds_clamped": any(clamped[s] for _, _, clamped in per_member),
         }
         if rot:

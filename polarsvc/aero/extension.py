@@ -33,6 +33,7 @@ linear interpolation (method ``"cylinder"`` in the history).
 
 from __future__ import annotations
 
+import functools
 import math
 from typing import Any
 
@@ -255,14 +256,6 @@ class _InnerCurve:
             float(np.interp(stall_neg, alpha, cl)),
             float(np.interp(stall_neg, alpha, cd)),
         )
-        self.offset_pos = (0.0, 0.0)
-        self.offset_neg = (0.0, 0.0)
-        if self.a_hi < 90.0:
-            m_cl, m_cd = self._model(np.array([self.a_hi]), positive=True)
-            self.offset_pos = (float(cl[-1] - m_cl[0]), float(cd[-1] - m_cd[0]))
-        if self.a_lo > -90.0:
-            m_cl, m_cd = self._model(np.array([self.a_lo]), positive=False)
-            self.offset_neg = (float(cl[0] - m_cl[0]), float(cd[0] - m_cd[0]))
 
     def _model(self, x: FloatArray, *, positive: bool) -> tuple[FloatArray, FloatArray]:
         if self.method == "flat-plate":
@@ -277,20 +270,22 @@ class _InnerCurve:
     def __call__(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
         cl = np.interp(x, self.alpha, self.cl)
         cd = np.interp(x, self.alpha, self.cd)
+        # the model is evaluated at the data end (first element) and at the angles beyond;
+        # the offset at the end decays linearly to zero at +-90 deg
         high = x > self.a_hi
         if high.any():
             xh = x[high]
-            m_cl, m_cd = self._model(xh, positive=True)
+            m_cl, m_cd = self._model(np.concatenate([[self.a_hi], xh]), positive=True)
             decay = (90.0 - xh) / (90.0 - self.a_hi)
-            cl[high] = m_cl + self.offset_pos[0] * decay
-            cd[high] = m_cd + self.offset_pos[1] * decay
+            cl[high] = m_cl[1:] + (self.cl[-1] - m_cl[0]) * decay
+            cd[high] = m_cd[1:] + (self.cd[-1] - m_cd[0]) * decay
         low = x < self.a_lo
         if low.any():
             xl = x[low]
-            m_cl, m_cd = self._model(xl, positive=False)
+            m_cl, m_cd = self._model(np.concatenate([[self.a_lo], xl]), positive=False)
             decay = (xl + 90.0) / (self.a_lo + 90.0)
-            cl[low] = m_cl + self.offset_neg[0] * decay
-            cd[low] = m_cd + self.offset_neg[1] * decay
+            cl[low] = m_cl[1:] + (self.cl[0] - m_cl[0]) * decay
+            cd[low] = m_cd[1:] + (self.cd[0] - m_cd[0]) * decay
         return cl, cd
 
 
@@ -329,13 +324,11 @@ def _arc_offset(
     return np.interp(s, [k[0] for k in knots], [k[1] for k in knots])
 
 
-def _slope_jumps(
-    alpha: FloatArray,
-    values: FloatArray,
-    ext_alpha: FloatArray,
-    ext_values: FloatArray,
-) -> tuple[float, float]:
-    """Slope jumps [1/deg] (extension side minus data side) at the upper and lower join."""
+def _join_neighbours(
+    alpha: FloatArray, ext_alpha: FloatArray
+) -> tuple[int, float, int, float]:
+    """Index and distance [deg] of the extension row next to the upper and to the lower data
+    end, along the circle."""
     a_lo, a_hi = float(alpha[0]), float(alpha[-1])
     gap_hi = np.mod(ext_alpha - a_hi, 360.0)
     gap_lo = np.mod(a_lo - ext_alpha, 360.0)
@@ -343,16 +336,34 @@ def _slope_jumps(
     gap_hi = np.where(gap_hi > EXTENSION_MARGIN, gap_hi, np.inf)
     gap_lo = np.where(gap_lo > EXTENSION_MARGIN, gap_lo, np.inf)
     first, last = int(np.argmin(gap_hi)), int(np.argmin(gap_lo))
-    ext_hi = (ext_values[first] - values[-1]) / gap_hi[first]
-    ext_lo = (values[0] - ext_values[last]) / gap_lo[last]
+    return first, float(gap_hi[first]), last, float(gap_lo[last])
+
+
+def _slope_jumps(
+    alpha: FloatArray,
+    values: FloatArray,
+    ext_values: FloatArray,
+    neighbours: tuple[int, float, int, float],
+) -> tuple[float, float]:
+    """Slope jumps [1/deg] (extension side minus data side) at the upper and lower join."""
+    first, gap_first, last, gap_last = neighbours
+    ext_hi = (ext_values[first] - values[-1]) / gap_first
+    ext_lo = (values[0] - ext_values[last]) / gap_last
     data_hi = (values[-1] - values[-2]) / (alpha[-1] - alpha[-2])
     data_lo = (values[1] - values[0]) / (alpha[1] - alpha[0])
     return float(ext_hi - data_hi), float(ext_lo - data_lo)
 
 
+@functools.lru_cache(maxsize=64)
+def _circle_grid(step_deg: float) -> FloatArray:
+    """Multiples of ``step_deg`` over -180..180 with both ends (read-only, cached)."""
+    grid = np.union1d(aligned_grid(step_deg, -180.0, 180.0), [-180.0, 180.0])
+    grid.flags.writeable = False
+    return grid
+
+
 def _extension_angles(step_deg: float, a_lo: float, a_hi: float) -> FloatArray:
-    grid = aligned_grid(step_deg, -180.0, 180.0)
-    grid = np.union1d(grid, [-180.0, 180.0])
+    grid = _circle_grid(float(step_deg))
     margin = EXTENSION_MARGIN * step_deg
     return grid[(grid < a_lo - margin) | (grid > a_hi + margin)]
 
@@ -474,10 +485,13 @@ def extend_full_range(
         )
         ext_cm = None
         if cm is not None:
-            ends = np.array([a_lo, a_hi])
-            end_cm = centre_of_pressure_moment(ends, np.array([cl[0], cl[-1]]),
-                                               np.array([cd[0], cd[-1]]))
-            ext_cm = centre_of_pressure_moment(ext_alpha, ext_cl, ext_cd) + _arc_offset(
+            both_cm = centre_of_pressure_moment(
+                np.concatenate([ext_alpha, [a_lo, a_hi]]),
+                np.concatenate([ext_cl, [cl[0], cl[-1]]]),
+                np.concatenate([ext_cd, [cd[0], cd[-1]]]),
+            )
+            end_cm = both_cm[-2:]
+            ext_cm = both_cm[:-2] + _arc_offset(
                 ext_alpha, a_lo, a_hi, cm[-1] - end_cm[1], cm[0] - end_cm[0],
                 zero_at_right_angles=True,
             )
@@ -488,12 +502,13 @@ def extend_full_range(
             trailing_edge_lift_factor=k,
             stall_angles_deg={"positive": stall_pos, "negative": stall_neg},
         )
+    neighbours = _join_neighbours(alpha, ext_alpha)
     jumps = {
-        "cl": _slope_jumps(alpha, cl, ext_alpha, ext_cl),
-        "cd": _slope_jumps(alpha, cd, ext_alpha, ext_cd),
+        "cl": _slope_jumps(alpha, cl, ext_cl, neighbours),
+        "cd": _slope_jumps(alpha, cd, ext_cd, neighbours),
     }
     if cm is not None and ext_cm is not None:
-        jumps["cm"] = _slope_jumps(alpha, cm, ext_alpha, ext_cm)
+        jumps["cm"] = _slope_jumps(alpha, cm, ext_cm, neighbours)
     report["joins"] = [
         {
             "side": side,

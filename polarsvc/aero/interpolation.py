@@ -11,7 +11,7 @@ Array kernels (shared with :mod:`polarsvc.aero.blade`):
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -51,12 +51,18 @@ class BracketWeights:
     clamped: NDArray[np.bool_]
 
 
+def from_log10(value: float) -> float:
+    """``10**value``: a log10 Reynolds number shown as the Reynolds number."""
+    return float(10.0**value)
+
+
 def bracket_weights(
     values: ArrayLike,
     target: ArrayLike,
     *,
     clamp: bool = False,
     parameter: str = "value",
+    shown_as: Callable[[float], float] = float,
 ) -> BracketWeights:
     """Neighbours and linear weights of ``target`` among strictly increasing ``values``.
 
@@ -70,6 +76,8 @@ def bracket_weights(
         Outside the values: clamp to the nearest end (recorded) instead of refusing.
     parameter : str
         Name used in errors.
+    shown_as : callable
+        Maps a value to the quantity named in errors (``lambda v: 10**v`` for log10 Re).
 
     Returns
     -------
@@ -91,7 +99,7 @@ def bracket_weights(
     outside = (t < low) | (t > high)
     if outside.any() and not clamp:
         first = float(t[np.flatnonzero(outside)[0]])
-        raise OutOfRangeError(parameter, first, low, high)
+        raise OutOfRangeError(parameter, shown_as(first), shown_as(low), shown_as(high))
     used = np.clip(t, low, high)
     if xs.size == 1:
         zeros = np.zeros(t.shape, dtype=np.intp)
@@ -248,7 +256,9 @@ def interpolate_reynolds(
     if not (math.isfinite(target) and target > 0.0):
         raise ParameterError("reynolds", f"must be positive and finite, got {show_value(target)}")
     log_re = np.log10([p.reynolds for p in members])
-    weights = bracket_weights(log_re, math.log10(target), clamp=clamp, parameter="reynolds")
+    weights = bracket_weights(
+        log_re, math.log10(target), clamp=clamp, parameter="reynolds", shown_as=from_log10
+    )
     used = target
     if weights.clamped[0]:
         used = float(members[int(weights.lower[0] if weights.weight_lower[0] == 1.0

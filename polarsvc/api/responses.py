@@ -16,6 +16,7 @@ Non-finite values: JSON writes NaN as null (orjson); the stored tables never hol
 
 from __future__ import annotations
 
+import hashlib
 import io
 import struct
 from collections.abc import Mapping
@@ -27,6 +28,7 @@ from fastapi import Request
 from fastapi.responses import Response
 
 from polarsvc.formats import table_to_csv
+from polarsvc.lru import LruCache
 
 JSON_MEDIA_TYPE = "application/json"
 CSV_MEDIA_TYPE = "text/csv; charset=utf-8"
@@ -70,8 +72,7 @@ def choose_format(request: Request, explicit: str | None) -> str:
     return "json"
 
 
-def encode_binary(arrays: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> bytes:
-    """Pack named float64 arrays and a JSON-able ``meta`` mapping into the binary form."""
+def _pack_arrays(arrays: Mapping[str, np.ndarray]) -> tuple[list[dict[str, Any]], bytes]:
     entries = []
     chunks = []
     offset = 0
@@ -80,8 +81,18 @@ def encode_binary(arrays: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> 
         entries.append({"name": name, "shape": list(data.shape), "offset": offset})
         chunks.append(data.tobytes())
         offset += data.nbytes
+    return entries, b"".join(chunks)
+
+
+def _binary_body(entries: list[dict[str, Any]], data: bytes, meta: Mapping[str, Any]) -> bytes:
     header = dumps({"arrays": entries, "meta": meta})
-    return b"".join([BINARY_MAGIC, struct.pack("<I", len(header)), header, *chunks])
+    return b"".join([BINARY_MAGIC, struct.pack("<I", len(header)), header, data])
+
+
+def encode_binary(arrays: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> bytes:
+    """Pack named float64 arrays and a JSON-able ``meta`` mapping into the binary form."""
+    entries, data = _pack_arrays(arrays)
+    return _binary_body(entries, data, meta)
 
 
 def decode_binary(payload: bytes) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
@@ -158,6 +169,23 @@ def not_modified(etag: str) -> Response:
     return Response(status_code=304, headers={"ETag": etag})
 
 
+def _encoded_size(value: object) -> int:
+    if isinstance(value, bytes):
+        return len(value)
+    entries_and_data = value
+    return len(entries_and_data[1])  # type: ignore[index]
+
+
+ENCODED: LruCache[Any] = LruCache(max_entries=256, max_size=256 * 2**20, size_of=_encoded_size)
+"""Encoded array bodies of derived tables by (content hash, format): a table is immutable
+under its content hash, so only the small metadata around it is encoded per request."""
+
+
+def _json_arrays(alpha_deg: np.ndarray, columns: Mapping[str, np.ndarray]) -> bytes:
+    arrays = {name: np.ascontiguousarray(value) for name, value in columns.items()}
+    return dumps({"alpha_deg": np.ascontiguousarray(alpha_deg), **arrays})
+
+
 def table_response(
     request: Request,
     *,
@@ -170,13 +198,22 @@ def table_response(
     extra_headers: Mapping[str, str] | None = None,
 ) -> Response:
     """Encode a table in the chosen format, with ETag, 304 on a matching If-None-Match, and
-    the content hash in ``X-Polarsvc-Content-Hash``."""
-    etag = etag_for(content_hash, fmt)
+    the content hash in ``X-Polarsvc-Content-Hash``.
+
+    The ETag names the content hash, the format and a digest of the metadata (which holds
+    the inputs' current review states), so a review change is never hidden behind a 304.
+    The encoded arrays are kept in :data:`ENCODED` under the content hash.
+    """
+    meta_bytes = dumps(meta)
+    etag = etag_for(f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}", fmt)
     headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
     if etag_matches(request, etag):
         return Response(status_code=304, headers=headers)
     if fmt == "bin":
-        body = encode_binary({"alpha_deg": alpha_deg, **columns}, meta)
+        entries, data = ENCODED.get(
+            (content_hash, "bin"), lambda: _pack_arrays({"alpha_deg": alpha_deg, **columns})
+        )
+        body = _binary_body(entries, data, meta)
         return Response(body, media_type=BINARY_MEDIA_TYPE, headers=headers)
     if fmt == "csv":
         comments = {k: v for k, v in meta.items() if isinstance(v, str | int | float)}
@@ -184,6 +221,6 @@ def table_response(
             alpha_deg, columns, comments=comments, stations_radius_m=stations_radius_m
         )
         return Response(body, media_type=CSV_MEDIA_TYPE, headers=headers)
-    arrays = {name: np.ascontiguousarray(value) for name, value in columns.items()}
-    document = {**meta, "alpha_deg": np.ascontiguousarray(alpha_deg), **arrays}
-    return Response(dumps(document), media_type=JSON_MEDIA_TYPE, headers=headers)
+    arrays_json = ENCODED.get((content_hash, "json"), lambda: _json_arrays(alpha_deg, columns))
+    body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
+    return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)

@@ -7,6 +7,7 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
+import orjson
 from numpy.typing import ArrayLike, NDArray
 from sqlalchemy import select
 from sqlalchemy.exc import IntegrityError
@@ -156,21 +157,13 @@ def put_derived(
     return table, True
 
 
-def _finite_or_none(value: Any) -> Any:
-    if isinstance(value, np.ndarray):
-        return _finite_or_none(value.tolist())
-    if isinstance(value, (float, np.floating)):
-        return float(value) if np.isfinite(value) else None
-    if isinstance(value, Mapping):
-        return {str(k): _finite_or_none(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_finite_or_none(v) for v in value]
-    return value
+REPORTS_JSON_OPTIONS = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS | orjson.OPT_SORT_KEYS
 
 
 def _reports_text(reports: Mapping[str, Any]) -> str:
+    """Reports as JSON text (not hashed, so orjson is used for speed; NaN becomes null)."""
     try:
-        return canonical_json(_finite_or_none(reports)).decode("utf-8")
+        return orjson.dumps(reports, option=REPORTS_JSON_OPTIONS).decode("utf-8")
     except (TypeError, ValueError) as exc:
         raise InvalidValue("reports", str(exc)) from None
 
