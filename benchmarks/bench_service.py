@@ -15,7 +15,6 @@ resampled to 50 stations along the span.
 
 from __future__ import annotations
 
-import json
 import socket
 import statistics
 import sys
@@ -30,6 +29,10 @@ import orjson
 import uvicorn
 from sqlalchemy.orm import sessionmaker
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from demo_blade import SEED, STATIONS, fifty_station_blade
+
 from polarsvc import aero, pipeline, recipes
 from polarsvc.api.app import create_app
 from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
@@ -39,26 +42,7 @@ from polarsvc.store import blades as blade_store
 from polarsvc.store.audit import SYSTEM_ACTOR
 from polarsvc.store.db import make_engine, session_scope, upgrade_database
 
-REPO = Path(__file__).resolve().parents[1]
-SEED = REPO / "seed_polars"
-STATIONS = 50
 REPEATS = 20
-
-
-def fifty_station_blade() -> dict:
-    """The demo blade resampled to 50 stations (linear in radius)."""
-    blade = json.loads((SEED / "skerry-48.json").read_text())
-    stations = blade["stations"]
-    radius = np.array([s["radius_m"] for s in stations])
-    new_radius = np.linspace(radius[0], radius[-1], STATIONS)
-    columns = {key: np.interp(new_radius, radius, [s[key] for s in stations])
-               for key in ("chord_m", "twist_deg", "thickness")}
-    blade["name"] = "skerry-48-fifty"
-    blade["stations"] = [
-        {"radius_m": float(r), **{k: float(v[i]) for k, v in columns.items()}}
-        for i, r in enumerate(new_radius)
-    ]
-    return blade
 
 
 def median_ms(samples: list[float]) -> float:

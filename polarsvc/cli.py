@@ -331,6 +331,20 @@ def cmd_verify(args: argparse.Namespace) -> int:
     return 0 if report["matches"] else 1
 
 
+def cmd_bundle(args: argparse.Namespace) -> int:
+    from polarsvc import bundle
+
+    factory = _factory(args)
+    if args.action == "export":
+        manifest = bundle.export_bundle(factory, Path(args.destination), family=args.family)
+        print(json.dumps(manifest.as_dict(), indent=1))
+        _stderr(f"bundle written to {args.destination}")
+    else:
+        report = bundle.import_bundle(factory, Path(args.source), actor=_local_actor())
+        print(json.dumps(report.as_dict(), indent=1))
+    return 0
+
+
 def _aware_datetime(text: str) -> dt.datetime:
     value = dt.datetime.fromisoformat(text)
     return value if value.tzinfo else value.replace(tzinfo=dt.UTC)
@@ -432,6 +446,16 @@ def build_parser() -> argparse.ArgumentParser:
     lineage.add_argument("key", help="content or recipe hash (or unique prefix)")
     lineage.add_argument("--json", action="store_true")
     lineage.set_defaults(handler=cmd_lineage)
+
+    bundle = commands.add_parser("bundle", help="portable export of the database, and import")
+    bundle_commands = bundle.add_subparsers(dest="action", required=True)
+    bundle_export = bundle_commands.add_parser("export", help="write a bundle folder")
+    bundle_export.add_argument("destination", help="a new or empty folder")
+    bundle_export.add_argument("--family", help="only this family (default: everything)")
+    bundle_export.set_defaults(handler=cmd_bundle)
+    bundle_import = bundle_commands.add_parser("import", help="load a bundle into an empty db")
+    bundle_import.add_argument("source")
+    bundle_import.set_defaults(handler=cmd_bundle)
 
     verify = commands.add_parser("verify", help="recompute a derived table and compare hashes")
     verify.add_argument("key")

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 import orjson
 from sqlalchemy import select
-from sqlalchemy.orm import Session, sessionmaker
+from sqlalchemy.orm import Session, defer, sessionmaker
 
 from polarsvc import recipes
 from polarsvc.aero.errors import InsufficientDataError
@@ -275,6 +275,10 @@ def _check_approved(revision: PolarRevision, approved_only: bool) -> None:
         )
 
 
+TABLE_COLUMNS = ("alpha_deg", "cl", "cd", "cm")
+"""The array columns of a revision: not read while choosing inputs, only on a cache miss."""
+
+
 def select_family_members(
     session: Session, *, family: str, surface: str, approved_only: bool
 ) -> list[PolarRevision]:
@@ -290,11 +294,12 @@ def select_family_members(
         select(PolarRevision)
         .join(Airfoil)
         .where(Airfoil.family_id == family_row.id, PolarRevision.surface == surface)
+        .options(*(defer(getattr(PolarRevision, c)) for c in TABLE_COLUMNS))
         .order_by(Airfoil.thickness, PolarRevision.reynolds, PolarRevision.id)
     )
-    candidates = list(session.scalars(statement).all())
     if approved_only:
-        candidates = [r for r in candidates if r.review_state == "approved"]
+        statement = statement.where(PolarRevision.review_state == "approved")
+    candidates = list(session.scalars(statement).all())
     superseded = {r.supersedes_id for r in candidates if r.supersedes_id is not None}
     chosen: dict[tuple[int, float | None], PolarRevision] = {}
     for revision in candidates:

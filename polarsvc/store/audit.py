@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -28,6 +29,24 @@ class Actor:
 
 SYSTEM_ACTOR = Actor(name="system", role="admin", remote_addr=None)
 """The actor of writes made by the service itself (start-up seeding, command line)."""
+
+_REPLAY_KEY = "polarsvc.audit.replaying"
+
+
+@contextlib.contextmanager
+def replaying_history(session: Session) -> Iterator[None]:
+    """Within this block :func:`record_event` adds nothing to ``session``.
+
+    Only for re-creating objects whose audit events already exist and are re-inserted as
+    they were by the caller, in the same transaction (the bundle import): the storage
+    functions then run unchanged without writing a second, misdated copy of the history.
+    """
+    previous = session.info.get(_REPLAY_KEY, False)
+    session.info[_REPLAY_KEY] = True
+    try:
+        yield
+    finally:
+        session.info[_REPLAY_KEY] = previous
 
 
 def record_event(
@@ -67,6 +86,8 @@ def record_event(
         remote_addr=actor.remote_addr,
         detail=canonical_json(dict(detail or {})).decode("utf-8"),
     )
+    if session.info.get(_REPLAY_KEY):
+        return event  # see replaying_history: the caller re-inserts the original event
     session.add(event)
     session.flush()
     return event

@@ -115,3 +115,22 @@ def test_readme_test_command_is_the_one_ci_runs():
     blocks = re.findall(r"```sh\n(.*?)\n```", readme, flags=re.S)
     test_command = next(b for b in blocks if "pytest" in b)
     assert test_command in ci.splitlines()
+
+
+def test_bundle_round_trip_through_the_command_line(url, tmp_path, capsys):
+    assert main(["--database-url", url, "import", str(SEED)]) == 0
+    revision = sorted(hashes(url))[0]
+    assert main(["--database-url", url, "review", "approve", revision]) == 0
+    bundle = tmp_path / "bundle"
+    assert main(["--database-url", url, "bundle", "export", str(bundle)]) == 0
+    assert (bundle / "manifest.json").is_file()
+    target = f"sqlite:///{tmp_path / 'restored.db'}"
+    assert main(["--database-url", target, "bundle", "import", str(bundle)]) == 0
+    assert hashes(target) == hashes(url)
+    csv_file = next(bundle.glob("polars/*/*.csv"))
+    csv_file.write_text(csv_file.read_text().replace("0.", "1.", 1))
+    again = f"sqlite:///{tmp_path / 'refused.db'}"
+    capsys.readouterr()
+    assert main(["--database-url", again, "bundle", "import", str(bundle)]) == 1
+    assert csv_file.name in capsys.readouterr().err
+    assert hashes(again) == set()
