@@ -138,6 +138,11 @@ def test_blade_reports_and_cylinder_root() -> None:
     assert np.all(tables.cl[0] == 0.0) and np.allclose(tables.cd[0], 0.5)
     middle = tables.stations[6]
     assert middle["thickness_weights"] == pytest.approx({"0.21": 1 / 3, "0.3": 2 / 3})
+    # Re 7e6 between 3e6 and 1e7, linear in log10 Re (domain notes)
+    w_hi = (np.log10(7e6) - np.log10(3e6)) / (np.log10(1e7) - np.log10(3e6))
+    assert middle["reynolds_weights"]["0.3"] == pytest.approx(
+        {"3000000.0": 1 - w_hi, "10000000.0": w_hi}
+    )
     assert tables.recipe["rotation_model"] == "snel"
     json.dumps(tables.stations)  # reports serialise as they are
     assert tables.alpha_deg.size == 721  # 0.5 deg grid over -180..180
