@@ -89,3 +89,25 @@ class TokenIn(StrictModel):
     expires_at: dt.datetime | None = Field(
         default=None, description="timezone-aware expiry; none means no expiry"
     )
+
+
+class ErrorOut(BaseModel):
+    """An error answer: ``detail`` says what is wrong; ``line``, ``field`` or ``parameter``
+    name the offending place where there is one."""
+
+    detail: object
+    line: int | None = None
+    field: str | None = None
+    parameter: str | None = None
+
+
+ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
+    304: {"description": "not modified (If-None-Match named the current ETag)"},
+    400: {"model": ErrorOut, "description": "unknown response format"},
+    401: {"model": ErrorOut, "description": "no valid token"},
+    403: {"model": ErrorOut, "description": "role too weak, or server read-only"},
+    404: {"model": ErrorOut, "description": "no such airfoil, family, revision, blade or table"},
+    409: {"model": ErrorOut, "description": "conflict: ambiguous hash prefix, review transition"},
+    422: {"model": ErrorOut, "description": "invalid input (line, field or parameter named)"},
+}
+"""Error answers every resource may give, documented once for all routers."""

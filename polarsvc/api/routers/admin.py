@@ -9,13 +9,13 @@ from fastapi import APIRouter, Query, Request
 
 from polarsvc.api.deps import Admin, Reader, ReadSession
 from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import TokenIn
+from polarsvc.api.schemas import ERROR_RESPONSES, TokenIn
 from polarsvc.store import audit as audit_store
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken, AuditEvent
 
-router = APIRouter(tags=["access and audit"])
+router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
 
 
 def token_summary(token: ApiToken) -> dict[str, Any]:

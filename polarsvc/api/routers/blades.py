@@ -15,13 +15,13 @@ from polarsvc.api.routers.polars import (
     GridStep,
     extension_from_query,
 )
-from polarsvc.api.schemas import BladeIn
+from polarsvc.api.schemas import ERROR_RESPONSES, BladeIn
 from polarsvc.api.served import served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
 
-router = APIRouter(tags=["blades and blends"])
+router = APIRouter(tags=["blades and blends"], responses=ERROR_RESPONSES)
 
 
 def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> dict[str, Any]:

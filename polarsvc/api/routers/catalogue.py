@@ -8,11 +8,12 @@ from fastapi import APIRouter, Query, Request
 
 from polarsvc.api.deps import Reader, ReadSession
 from polarsvc.api.responses import json_response
+from polarsvc.api.schemas import ERROR_RESPONSES
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.models import Airfoil, Family
 
-router = APIRouter(tags=["catalogue"])
+router = APIRouter(tags=["catalogue"], responses=ERROR_RESPONSES)
 
 
 def airfoil_summary(airfoil: Airfoil) -> dict[str, Any]:

@@ -11,9 +11,10 @@ from polarsvc import lineage, pipeline
 from polarsvc.api.deps import Reader, ReadSession
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import FormatQuery
+from polarsvc.api.schemas import ERROR_RESPONSES
 from polarsvc.api.served import served_response
 
-router = APIRouter(tags=["derived tables and lineage"])
+router = APIRouter(tags=["derived tables and lineage"], responses=ERROR_RESPONSES)
 
 
 @router.get("/derived/{key}", summary="A cached derived table by content or recipe hash")

@@ -9,14 +9,14 @@ from fastapi import APIRouter, HTTPException, Query, Request
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, table_response
-from polarsvc.api.schemas import ReviewChange
+from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
 from polarsvc.api.served import served_response
 from polarsvc.ingest import store_file
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import PolarRevision
 
-router = APIRouter(tags=["polars"])
+router = APIRouter(tags=["polars"], responses=ERROR_RESPONSES)
 
 TABLE_MEDIA_TYPES = (
     "text/csv",
