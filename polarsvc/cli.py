@@ -21,7 +21,8 @@ from typing import Any
 
 from polarsvc import __version__
 
-SEED_DIR = Path(__file__).resolve().parent.parent / "seed_polars"
+SEED_DIRS = (Path(__file__).resolve().parent.parent / "seed_polars", Path.cwd() / "seed_polars")
+"""Where the demo data are looked for: beside the package (a checkout), or here."""
 DEMO_DATABASE = Path("polarsvc-data") / "demo.db"
 
 
@@ -111,7 +112,13 @@ def _prepare_demo(database_url: str) -> str:
     upgrade_database(engine)
     factory = sessionmaker(engine, expire_on_commit=False)
     actor = _local_actor()
-    load_demo(factory, SEED_DIR, actor=actor)
+    seed_dir = next((d for d in SEED_DIRS if (d / "family.json").is_file()), None)
+    if seed_dir is None:
+        raise FileNotFoundError(
+            "demo data not found (looked in " + ", ".join(str(d) for d in SEED_DIRS) + "); "
+            "run from a checkout of polarsvc"
+        )
+    load_demo(factory, seed_dir, actor=actor)
     name = "demo-admin-" + dt.datetime.now(dt.UTC).strftime("%Y%m%dT%H%M%S")
     with session_scope(factory, write=True) as session:
         _, secret = token_store.create_token(session, name=name, role="admin", actor=actor)
@@ -473,7 +480,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 
     try:
         return int(args.handler(args))
-    except (AeroError, FormatError, StoreError, ValueError) as exc:
+    except (AeroError, FormatError, StoreError, ValueError, OSError) as exc:
         _stderr(f"polarsvc {args.command}: {exc}")
         return 1
 

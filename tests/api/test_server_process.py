@@ -84,6 +84,16 @@ def test_demo_server_serves_blade_sets_to_the_client(demo_server):
         assert reviewed["review"]["state"] == "approved"
 
 
+def test_tokens_never_reach_the_log(demo_server):
+    base, admin_token, workdir = demo_server
+    httpx.get(base + "/api/v1/tokens", headers={"Authorization": f"Bearer {admin_token}"})
+    refused = httpx.get(base + "/api/v1/tokens",
+                        headers={"Authorization": f"Bearer {admin_token}x"})
+    assert refused.status_code == 401 and admin_token not in refused.text
+    log = (workdir / "server.log").read_text()
+    assert log.count(admin_token) == 1  # printed once at start-up, by design
+
+
 def test_demo_server_refuses_writes_without_a_token(demo_server):
     base, _, _ = demo_server
     answer = httpx.post(base + "/api/v1/polars", content=b"alpha_deg,cl,cd\n",
