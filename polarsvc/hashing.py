@@ -73,6 +73,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from polarsvc.provenance import PROVENANCE_FIELDS
+
 if TYPE_CHECKING:
     from polarsvc.aero.polar import Polar
 
@@ -89,15 +91,6 @@ __all__ = [
     "table_content_hash",
 ]
 
-PROVENANCE_FIELDS: tuple[str, ...] = (
-    "source_kind",
-    "reference",
-    "facility",
-    "measured_on",
-    "contributor",
-    "notes",
-)
-"""The provenance fields that enter a polar's content hash, always all of them."""
 
 _CANONICAL_NAN_BITS = np.uint64(0x7FF8000000000000)
 _ABS_MASK = np.uint64(0x7FFFFFFFFFFFFFFF)

@@ -15,18 +15,11 @@ import numpy as np
 
 from polarsvc.aero import SURFACE_CONDITIONS, ParameterError, Polar, PolarValidationError
 from polarsvc.formats.errors import FormatError, shown
+from polarsvc.provenance import PROVENANCE_FIELDS, SOURCE_KINDS
 
-SOURCE_KINDS: tuple[str, ...] = ("wind-tunnel", "cfd", "panel-method", "synthetic", "other")
 """Valid values of ``source_kind``."""
 
-PROVENANCE_KEYS: tuple[str, ...] = (
-    "source_kind",
-    "reference",
-    "facility",
-    "measured_on",
-    "contributor",
-    "notes",
-)
+PROVENANCE_KEYS = PROVENANCE_FIELDS
 """Keys of :attr:`ParsedPolar.provenance`, always all present (None when not given)."""
 
 CONDITION_KEYS: tuple[str, ...] = ("thickness", "reynolds", "mach", "surface")

@@ -30,6 +30,7 @@ from sqlalchemy.engine import Dialect
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
 from sqlalchemy.types import TypeDecorator
 
+from polarsvc.provenance import SOURCE_KINDS
 from polarsvc.store.errors import AppendOnlyViolation
 
 NAMING_CONVENTION = {
@@ -40,7 +41,6 @@ NAMING_CONVENTION = {
     "pk": "pk_%(table_name)s",
 }
 
-SOURCE_KINDS: tuple[str, ...] = ("wind-tunnel", "cfd", "panel-method", "synthetic", "other")
 REVIEW_STATES: tuple[str, ...] = ("draft", "approved", "deprecated")
 DERIVED_KINDS: tuple[str, ...] = ("extended", "augmented", "resampled", "blended", "blade-set")
 TOKEN_ROLES: tuple[str, ...] = ("reader", "curator", "admin")

@@ -13,6 +13,7 @@ from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
     FormatQuery,
     GridStep,
+    approved_only_setting,
     extension_from_query,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, BladeIn
@@ -103,7 +104,7 @@ def blade_tables(
     }
     served = pipeline.blade_set(
         request.app.state.session_factory, blade_key=key, options=options,
-        approved_only=settings.approved_only if approved_only is None else approved_only,
+        approved_only=approved_only_setting(settings, approved_only),
     )
     return served_response(request, served, fmt)
 
@@ -135,6 +136,6 @@ def family_blend(
     )
     served = pipeline.family_blend(
         request.app.state.session_factory, family=name, params=params,
-        approved_only=settings.approved_only if approved_only is None else approved_only,
+        approved_only=approved_only_setting(settings, approved_only),
     )
     return served_response(request, served, fmt)

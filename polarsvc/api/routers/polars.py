@@ -11,6 +11,7 @@ from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, table_response
 from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
 from polarsvc.api.served import served_response
+from polarsvc.api.settings import Settings
 from polarsvc.ingest import store_file
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
@@ -64,7 +65,8 @@ def revision_summary(revision: PolarRevision) -> dict[str, Any]:
     }
 
 
-def _approved_only(settings, explicit: bool | None) -> bool:
+def approved_only_setting(settings: Settings, explicit: bool | None) -> bool:
+    """The request's approved-only choice, else the server's default."""
     return settings.approved_only if explicit is None else explicit
 
 
@@ -222,7 +224,7 @@ def resampled(
     fmt = choose_format(request, format)
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="resampled",
-        params={"step_deg": step_deg}, approved_only=_approved_only(settings, approved_only),
+        params={"step_deg": step_deg}, approved_only=approved_only_setting(settings, approved_only),
     )
     return served_response(request, served, fmt)
 
@@ -250,7 +252,7 @@ def extended(
     }
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="extended",
-        params=params, approved_only=_approved_only(settings, approved_only),
+        params=params, approved_only=approved_only_setting(settings, approved_only),
     )
     return served_response(request, served, fmt)
 
@@ -289,7 +291,7 @@ def augmented(
     }
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="augmented",
-        params=params, approved_only=_approved_only(settings, approved_only),
+        params=params, approved_only=approved_only_setting(settings, approved_only),
     )
     return served_response(request, served, fmt)
 
