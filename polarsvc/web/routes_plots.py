@@ -1,0 +1,199 @@
+"""Plot downloads (SVG) and the tables behind them (CSV), for the airfoil, family and blade
+pages. Each figure and its CSV come from the same view-data function."""
+
+from __future__ import annotations
+
+import re
+
+from fastapi import APIRouter, Request
+from fastapi.responses import Response
+
+from polarsvc.api.deps import ReadSession
+from polarsvc.store import airfoils as airfoil_store
+from polarsvc.store import polars as polar_store
+from polarsvc.web import plots, viewdata
+from polarsvc.web.security import PageError, PageReader
+
+SVG_MEDIA_TYPE = "image/svg+xml"
+CSV_MEDIA_TYPE = "text/csv; charset=utf-8"
+
+DOWNLOAD_HEADERS = {
+    "X-Content-Type-Options": "nosniff",
+    # An SVG opened on its own may style itself but never run a script.
+    "Content-Security-Policy": "default-src 'none'; style-src 'unsafe-inline'",
+    "Cache-Control": "private, no-cache",
+}
+
+
+def download_name(*parts: str) -> str:
+    """A file name built from user-supplied parts, reduced to ``[A-Za-z0-9._-]``."""
+    joined = "-".join(parts)
+    return re.sub(r"[^A-Za-z0-9._-]+", "_", joined).strip("._") or "plot"
+
+
+def svg_response(body: bytes, filename: str) -> Response:
+    return Response(
+        body,
+        media_type=SVG_MEDIA_TYPE,
+        headers={"Content-Disposition": f'inline; filename="{filename}.svg"', **DOWNLOAD_HEADERS},
+    )
+
+
+def csv_response(body: bytes, filename: str) -> Response:
+    return Response(
+        body,
+        media_type=CSV_MEDIA_TYPE,
+        headers={
+            "Content-Disposition": f'attachment; filename="{filename}.csv"',
+            **DOWNLOAD_HEADERS,
+        },
+    )
+
+
+def _kind(kind: str) -> str:
+    if kind not in plots.PLOT_KINDS:
+        raise PageError(404, f"no plot kind {kind!r}; kinds: {', '.join(plots.PLOT_KINDS)}")
+    return kind
+
+
+def _span(request: Request) -> str:
+    span = request.query_params.get("span") or "near"
+    if span not in viewdata.PLOT_SPANS:
+        raise PageError(422, f"span {span!r} is not one of {', '.join(viewdata.PLOT_SPANS)}")
+    return span
+
+
+def _airfoil_series(request: Request, session, name: str) -> tuple[list[plots.PlotSeries], str]:
+    airfoil = airfoil_store.get_airfoil(session, name)
+    revisions = polar_store.list_revisions(session, airfoil=name)
+    revision = viewdata.choose_revision(
+        airfoil, revisions, request.query_params.get("revision", "")
+    )
+    if revision is None:
+        raise PageError(404, f"airfoil {name!r} holds no polar revision")
+    inputs, _ = viewdata.parse_station_inputs(request.query_params)
+    tables = viewdata.airfoil_tables(request.app.state.session_factory, revision, inputs)
+    return tables.series(_span(request)), revision.content_hash[:12]
+
+
+def add_routes(router: APIRouter) -> None:
+    # -- airfoil ------------------------------------------------------------------------
+    @router.get("/plots/airfoils/{name}/{kind}.svg")
+    def airfoil_plot_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        series, short = _airfoil_series(request, session, name)
+        title = f"{name}: {plots.KIND_TITLES[_kind(kind)].lower()}"
+        body = plots.polar_plots_svg(series, kind=kind, title=title)  # type: ignore[arg-type]
+        return svg_response(body, download_name(name, short, kind))
+
+    @router.get("/plots/airfoils/{name}/{kind}.csv")
+    def airfoil_plot_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        series, short = _airfoil_series(request, session, name)
+        return csv_response(plots.series_csv(series), download_name(name, short, kind))
+
+    # -- family -------------------------------------------------------------------------
+    def family_data(request: Request, session, name: str) -> viewdata.FamilyView:
+        family = airfoil_store.get_family(session, name)
+        return viewdata.family_view(
+            session, request.app.state.session_factory, family, request.query_params,
+            approved_only=bool(request.app.state.settings.approved_only),
+        )
+
+    @router.get("/plots/families/{name}/members-{kind}.svg")
+    def family_members_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = family_data(request, session, name)
+        series, thickness = view.member_series(_span(request))
+        body = plots.overlay_svg(
+            series,
+            thickness,
+            colour_label=plots.AXIS_LABELS["thickness"],
+            kind=_kind(kind),  # type: ignore[arg-type]
+            title=f"Family {name} at Re {view.reynolds:.3g}, {view.surface}",
+        )
+        return svg_response(body, download_name(name, "members", kind))
+
+    @router.get("/plots/families/{name}/members-{kind}.csv")
+    def family_members_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        series, _ = family_data(request, session, name).member_series(_span(request))
+        return csv_response(plots.series_csv(series), download_name(name, "members", kind))
+
+    @router.get("/plots/families/{name}/blend-{kind}.svg")
+    def family_blend_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = family_data(request, session, name)
+        body = plots.polar_plots_svg(
+            view.blend_series(_span(request)),
+            kind=_kind(kind),  # type: ignore[arg-type]
+            title=f"Family {name} blended at t/c {view.thickness:g}",
+        )
+        return svg_response(body, download_name(name, "blend", f"{view.thickness:g}", kind))
+
+    @router.get("/plots/families/{name}/blend-{kind}.csv")
+    def family_blend_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        view = family_data(request, session, name)
+        return csv_response(
+            plots.series_csv(view.blend_series(_span(request))),
+            download_name(name, "blend", f"{view.thickness:g}", kind),
+        )
+
+    # -- blade --------------------------------------------------------------------------
+    def blade_data(request: Request, session, name: str) -> viewdata.BladeView:
+        return viewdata.blade_view(
+            session, request.app.state.session_factory, name, request.query_params,
+            approved_only=bool(request.app.state.settings.approved_only),
+        )
+
+    @router.get("/plots/blades/{name}/planform.svg")
+    def blade_planform_svg(
+        request: Request, name: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = blade_data(request, session, name)
+        body = plots.blade_planform_svg(
+            view.radius_m, view.chord_m, view.twist_deg, view.thickness,
+            title=f"Blade {name} along the span",
+        )
+        return svg_response(body, download_name(name, "planform"))
+
+    @router.get("/plots/blades/{name}/planform.csv")
+    def blade_planform_csv(
+        request: Request, name: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = blade_data(request, session, name)
+        body = plots.planform_csv(view.radius_m, view.chord_m, view.twist_deg, view.thickness)
+        return csv_response(body, download_name(name, "planform"))
+
+    @router.get("/plots/blades/{name}/stations-{kind}.svg")
+    def blade_stations_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = blade_data(request, session, name)
+        series, radius = view.station_series(_span(request))
+        body = plots.overlay_svg(
+            series,
+            radius,
+            colour_label=plots.AXIS_LABELS["radius"],
+            kind=_kind(kind),  # type: ignore[arg-type]
+            title=f"Blade {name}: station tables",
+        )
+        return svg_response(body, download_name(name, "stations", kind))
+
+    @router.get("/plots/blades/{name}/stations-{kind}.csv")
+    def blade_stations_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        series, _ = blade_data(request, session, name).station_series(_span(request))
+        return csv_response(plots.series_csv(series), download_name(name, "stations", kind))
