@@ -1,12 +1,14 @@
-"""Small helpers shared by the storage modules: allowed-value checks and hash-key lookup."""
+"""Small helpers shared by the storage modules: allowed-value checks, hash-key lookup and
+the insert that tolerates a concurrent identical insert."""
 
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any, TypeVar
 
 from sqlalchemy import func, or_, select
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from polarsvc.store.errors import AmbiguousKey, InvalidValue, NotFound
@@ -81,3 +83,26 @@ def find_by_hash(
         count = session.scalar(select(func.count()).select_from(model).where(condition))
         raise AmbiguousKey(kind, key, int(count or 0))
     return rows[0]
+
+
+def insert_or_winner(
+    session: Session, row: Row, find_winner: Callable[[], Row | None]
+) -> tuple[Row, bool]:
+    """Insert ``row`` in a savepoint; when a unique constraint fires because a concurrent
+    transaction stored the same thing first, return that stored row instead.
+
+    Returns
+    -------
+    (row, bool)
+        The stored row and whether this call inserted it.
+    """
+    try:
+        with session.begin_nested():
+            session.add(row)
+            session.flush()
+    except IntegrityError:
+        winner = find_winner()
+        if winner is None:
+            raise
+        return winner, False
+    return row, True

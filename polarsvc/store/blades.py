@@ -7,11 +7,10 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from polarsvc.hashing import blade_content_hash, canonical_json
-from polarsvc.store._lookup import check_name, find_by_hash
+from polarsvc.store._lookup import check_name, find_by_hash, insert_or_winner
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import InvalidValue, NotFound
 from polarsvc.store.models import NAME_LENGTH, BladeDefinition
@@ -52,14 +51,9 @@ def store_blade(
     blade = BladeDefinition(
         name=name, content_hash=content_hash, definition=text, created_by=actor.name
     )
-    try:
-        with session.begin_nested():
-            session.add(blade)
-    except IntegrityError:
-        winner = _by_full_hash(session, content_hash)
-        if winner is None:
-            raise
-        return winner, False
+    blade, created = insert_or_winner(session, blade, lambda: _by_full_hash(session, content_hash))
+    if not created:
+        return blade, False
     record_event(
         session,
         actor=actor,

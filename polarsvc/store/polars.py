@@ -7,7 +7,6 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from sqlalchemy import select
-from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from polarsvc.aero.polar import Polar
@@ -17,7 +16,7 @@ from polarsvc.hashing import (
     decode_array_bytes,
     polar_content_hash,
 )
-from polarsvc.store._lookup import check_choice, find_by_hash
+from polarsvc.store._lookup import check_choice, find_by_hash, insert_or_winner
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import (
@@ -160,15 +159,12 @@ def store_polar(
         created_by=actor.name,
         **fields,
     )
-    try:
-        with session.begin_nested():
-            session.add(revision)
-    except IntegrityError:
-        # the same content committed by a concurrent transaction (unique content_hash)
-        winner = _by_full_hash(session, content_hash)
-        if winner is None:
-            raise
-        return winner, False
+    # the same content may be committed by a concurrent transaction (unique content_hash)
+    revision, created = insert_or_winner(
+        session, revision, lambda: _by_full_hash(session, content_hash)
+    )
+    if not created:
+        return revision, False
     record_event(
         session,
         actor=actor,
