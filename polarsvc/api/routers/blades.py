@@ -11,10 +11,10 @@ from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
+    ExtensionQuery,
     FormatQuery,
     GridStep,
     approved_only_setting,
-    extension_from_query,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, BladeIn
 from polarsvc.api.served import served_response
@@ -75,16 +75,13 @@ def get_blade(key: str, session: ReadSession, _: Reader):
     ),
 )
 def blade_tables(
-    key: str, request: Request, settings: SettingsDep, _: Reader,
+    key: str, request: Request, settings: SettingsDep, _: Reader, extension: ExtensionQuery,
     rotation_model: Annotated[
         str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
     ] = "snel",
     surface: Annotated[str | None, Query(description="default: the blade's own")] = None,
     thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
     clamp: bool = False,
-    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
-    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
-    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
     wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
     rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
@@ -96,7 +93,7 @@ def blade_tables(
         "surface": surface,
         "thickness_method": thickness_method,
         "clamp": clamp,
-        "extension": extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        "extension": extension,
         "rotation": {"model": rotation_model},
         "step_deg": step_deg,
         "wind_speed_m_s": wind_speed_m_s,
@@ -114,15 +111,12 @@ def blade_tables(
     summary="A family's full-range table at any thickness and Reynolds number",
 )
 def family_blend(
-    name: str, request: Request, settings: SettingsDep, _: Reader,
+    name: str, request: Request, settings: SettingsDep, _: Reader, extension: ExtensionQuery,
     thickness: Annotated[float, Query(gt=0, le=1, description="t/c as a fraction")],
     reynolds: Annotated[float, Query(gt=0)],
     surface: str = "clean",
     thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
     clamp: bool = False,
-    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
-    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
-    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
@@ -131,7 +125,7 @@ def family_blend(
     params = recipes.blend_params(
         thickness=thickness, reynolds=reynolds, surface=surface,
         thickness_method=thickness_method, clamp=clamp,
-        extension=extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        extension=extension,
         step_deg=step_deg,
     )
     served = pipeline.family_blend(

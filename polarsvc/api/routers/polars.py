@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, HTTPException, Query, Request
+from fastapi import APIRouter, Depends, HTTPException, Query, Request
 
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
@@ -203,16 +203,32 @@ def get_polar_table(
 GridStep = Annotated[float, Query(gt=0.01, le=30, description="angle step of the table [deg]")]
 
 
-def extension_from_query(
-    method: str, aspect_ratio: float | None, cd_max: float | None,
-    alpha_stall_pos_deg: float | None, alpha_stall_neg_deg: float | None,
-    trailing_edge_lift_factor: float,
+def extension_query(
+    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
+    aspect_ratio: Annotated[
+        float | None, Query(gt=0, description="blade aspect ratio for cd_max (Viterna)")
+    ] = None,
+    cd_max: Annotated[float | None, Query(gt=0, le=3, description="drag at 90 deg")] = None,
+    alpha_stall_pos_deg: Annotated[
+        float | None, Query(gt=0, lt=90, description="positive join angle (default: found)")
+    ] = None,
+    alpha_stall_neg_deg: Annotated[
+        float | None, Query(gt=-90, lt=0, description="negative join angle (default: found)")
+    ] = None,
+    trailing_edge_lift_factor: Annotated[
+        float, Query(ge=0, le=2, description="lift scale beyond 90 deg")
+    ] = 0.7,
 ) -> dict[str, Any]:
+    """The full-range extension settings of a request (one set of query parameters for every
+    endpoint that extends)."""
     return recipes.extension_params(
         method=method, aspect_ratio=aspect_ratio, cd_max=cd_max,
         alpha_stall_pos_deg=alpha_stall_pos_deg, alpha_stall_neg_deg=alpha_stall_neg_deg,
         trailing_edge_lift_factor=trailing_edge_lift_factor,
     )
+
+
+ExtensionQuery = Annotated[dict[str, Any], Depends(extension_query)]
 
 
 @router.get("/polars/{content_hash}/resampled", summary="A revision resampled onto a grid")
@@ -232,22 +248,14 @@ def resampled(
 @router.get("/polars/{content_hash}/extended", summary="A revision extended to -180..180 deg")
 def extended(
     content_hash: str, request: Request, settings: SettingsDep, _: Reader,
-    method: Annotated[str, Query(description="viterna or flat-plate")] = "viterna",
-    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
-    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
-    alpha_stall_pos_deg: Annotated[float | None, Query(gt=0, lt=90)] = None,
-    alpha_stall_neg_deg: Annotated[float | None, Query(gt=-90, lt=0)] = None,
-    trailing_edge_lift_factor: Annotated[float, Query(ge=0, le=2)] = 0.7,
+    extension: ExtensionQuery,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
     params = {
-        "extension": extension_from_query(
-            method, aspect_ratio, cd_max, alpha_stall_pos_deg, alpha_stall_neg_deg,
-            trailing_edge_lift_factor,
-        ),
+        "extension": extension,
         "step_deg": step_deg,
     }
     served = pipeline.revision_table(
@@ -263,6 +271,7 @@ def extended(
 )
 def augmented(
     content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    extension: ExtensionQuery,
     r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
     chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
     model: Annotated[str, Query(description="snel, du-selig or chaviaropoulos-hansen")] = "snel",
@@ -271,16 +280,13 @@ def augmented(
     cl_alpha_per_rad: Annotated[float | None, Query(gt=0, le=10)] = None,
     fade_start_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[0],
     fade_end_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[1],
-    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
-    aspect_ratio: Annotated[float | None, Query(gt=0)] = None,
-    cd_max: Annotated[float | None, Query(gt=0, le=3)] = None,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
     params = {
-        "extension": extension_from_query(method, aspect_ratio, cd_max, None, None, 0.7),
+        "extension": extension,
         "rotation": recipes.rotation_params(
             model=model, r_over_R=r_over_R, chord_over_r=chord_over_r,
             tip_speed_ratio=tip_speed_ratio, twist_deg=twist_deg,
