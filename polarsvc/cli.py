@@ -46,12 +46,17 @@ def _local_actor():
     return Actor(name=f"cli:{user}", role="admin", remote_addr="local")
 
 
+_ENGINES: list[Any] = []
+"""Engines opened by this command; disposed when it ends (see :func:`main`)."""
+
+
 def _factory(args: argparse.Namespace, *, upgrade: bool = True):
     from sqlalchemy.orm import sessionmaker
 
     from polarsvc.store.db import make_engine, upgrade_database
 
     engine = make_engine(_database_url(args))
+    _ENGINES.append(engine)
     if upgrade:
         upgrade_database(engine)
     return sessionmaker(engine, expire_on_commit=False)
@@ -483,6 +488,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (AeroError, FormatError, StoreError, ValueError, OSError) as exc:
         _stderr(f"polarsvc {args.command}: {exc}")
         return 1
+    finally:
+        while _ENGINES:
+            _ENGINES.pop().dispose()
 
 
 if __name__ == "__main__":
