@@ -28,6 +28,32 @@ class ReviewChange(StrictModel):
     replaced_by: Annotated[str, Field(min_length=8, max_length=64)] | None = None
 
 
+class FamilyIn(StrictModel):
+    """A new airfoil family."""
+
+    name: Annotated[str, Field(min_length=1, max_length=200)]
+    description: Annotated[str, Field(max_length=4000)] = ""
+
+
+class CoordinatesIn(StrictModel):
+    """An outline in chord fractions, from the trailing edge round the nose and back."""
+
+    x: Annotated[list[FiniteNumber], Field(min_length=3, max_length=2000)]
+    y: Annotated[list[FiniteNumber], Field(min_length=3, max_length=2000)]
+
+
+class AirfoilIn(StrictModel):
+    """A new airfoil."""
+
+    name: Annotated[str, Field(min_length=1, max_length=200)]
+    thickness: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] = Field(
+        description="relative thickness t/c as a fraction (0.21, not 21)"
+    )
+    family: Annotated[str, Field(min_length=1, max_length=200)] | None = None
+    description: Annotated[str, Field(max_length=4000)] = ""
+    coordinates: CoordinatesIn | None = None
+
+
 class StationIn(StrictModel):
     """One blade station."""
 

@@ -33,6 +33,11 @@ def write_requests(revision: str) -> dict[str, tuple[str, str, dict]]:
         "blade": ("POST", "/api/v1/blades",
                   {"content": BLADE, "headers": {"Content-Type": "application/json"}}),
         "review": ("POST", f"/api/v1/polars/{revision}/review", {"json": {"state": "approved"}}),
+        "family": ("POST", "/api/v1/families", {"json": {"name": "tern", "description": "x"}}),
+        "airfoil": ("POST", "/api/v1/airfoils", {"json": {
+            "name": "TERN-240", "thickness": 0.24, "family": "skua",
+            "coordinates": {"x": [1.0, 0.5, 0.0, 0.5, 1.0], "y": [0.0, 0.06, 0.0, -0.05, 0.0]},
+        }}),
     }
 
 
@@ -53,7 +58,7 @@ def event_count(factory) -> int:
         return session.scalar(select(func.count()).select_from(AuditEvent))
 
 
-@pytest.mark.parametrize("name", ["upload", "blade", "review"])
+@pytest.mark.parametrize("name", ["upload", "blade", "review", "family", "airfoil"])
 def test_writes_need_a_curator(name, demo_client, tokens, prepared_db):
     method, url, kwargs = write_requests(any_revision(demo_client, tokens))[name]
     headers = kwargs.pop("headers", {})

@@ -6,11 +6,12 @@ from typing import Annotated, Any
 
 from fastapi import APIRouter, Query, Request
 
-from polarsvc.api.deps import Reader, ReadSession
+from polarsvc.api.deps import Curator, Reader, ReadSession
 from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES
+from polarsvc.api.schemas import ERROR_RESPONSES, AirfoilIn, FamilyIn
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
+from polarsvc.store.db import session_scope
 from polarsvc.store.models import Airfoil, Family
 
 router = APIRouter(tags=["catalogue"], responses=ERROR_RESPONSES)
@@ -42,6 +43,35 @@ def family_summary(family: Family) -> dict[str, Any]:
 @router.get("/families", summary="List families with their airfoils")
 def list_families(session: ReadSession, _: Reader):
     return json_response([family_summary(f) for f in airfoil_store.list_families(session)])
+
+
+@router.post("/families", status_code=201, summary="Create a family (curator)")
+def create_family(body: FamilyIn, request: Request, principal: Curator):
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        family, created = airfoil_store.get_or_create_family(
+            session, name=body.name, description=body.description, actor=principal.actor()
+        )
+        return json_response(
+            {**family_summary(family), "created": created}, status_code=201 if created else 200
+        )
+
+
+@router.post(
+    "/airfoils",
+    status_code=201,
+    summary="Create an airfoil (curator); an identical one is returned, a different one is 409",
+)
+def create_airfoil(body: AirfoilIn, request: Request, principal: Curator):
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        airfoil, created = airfoil_store.create_airfoil(
+            session, name=body.name, thickness=body.thickness, family=body.family,
+            description=body.description,
+            coordinates=body.coordinates.model_dump() if body.coordinates else None,
+            actor=principal.actor(),
+        )
+        return json_response(
+            {**airfoil_summary(airfoil), "created": created}, status_code=201 if created else 200
+        )
 
 
 @router.get("/families/{name}", summary="One family")
