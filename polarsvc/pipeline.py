@@ -8,13 +8,13 @@ the pages and the command line all call it.
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import orjson
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session, defer, sessionmaker
 
 from polarsvc import recipes
@@ -29,7 +29,13 @@ from polarsvc.store.airfoils import get_family
 from polarsvc.store.audit import Actor
 from polarsvc.store.db import session_scope
 from polarsvc.store.errors import NotFound
-from polarsvc.store.models import Airfoil, BladeDefinition, DerivedTable, PolarRevision
+from polarsvc.store.models import (
+    Airfoil,
+    AuditEvent,
+    BladeDefinition,
+    DerivedTable,
+    PolarRevision,
+)
 
 CACHE_ACTOR = Actor(name="derived-cache", role="admin", remote_addr=None)
 """The actor recorded when the service caches a table it computed for a reader."""
@@ -324,6 +330,43 @@ def _preference(revision: PolarRevision) -> tuple[int, int]:
 
 
 # -- the served kinds ----------------------------------------------------------------------
+RESOLUTIONS: LruCache[tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]] = LruCache(
+    max_entries=256
+)
+"""Requests already resolved to (recipe, inputs, extra), by request and write generation."""
+
+
+def write_generation(session: Session) -> int:
+    """The id of the newest audit event: every write records one, so while it is unchanged
+    no revision, review state, blade or family has changed."""
+    return session.scalar(select(func.max(AuditEvent.id))) or 0
+
+
+def _resolve(
+    factory: sessionmaker[Session],
+    request_key: tuple[Any, ...],
+    resolve: Callable[[Session], tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]],
+) -> ServedTable:
+    """Resolve a request to its recipe and inputs (or reuse the resolution made since the
+    last write), then serve the table."""
+    with session_scope(factory, write=False) as session:
+        key = (_database_key(factory), write_generation(session), *request_key)
+        resolved = RESOLUTIONS.peek(key)
+        if resolved is None:
+            resolved = resolve(session)
+            RESOLUTIONS.put(key, resolved)
+    recipe, inputs, extra = resolved
+    served = get_or_compute(factory, recipe, inputs)
+    return dataclasses.replace(served, extra={**served.extra, **extra}) if extra else served
+
+
+def _request_key(*parts: Any) -> tuple[Any, ...]:
+    return tuple(
+        orjson.dumps(p, option=orjson.OPT_SORT_KEYS) if isinstance(p, Mapping) else p
+        for p in parts
+    )
+
+
 def revision_table(
     factory: sessionmaker[Session],
     *,
@@ -333,12 +376,17 @@ def revision_table(
     approved_only: bool,
 ) -> ServedTable:
     """A stored revision resampled, extended or augmented (``kind``)."""
-    with session_scope(factory, write=False) as session:
+
+    def resolve(session: Session):
         revision = polar_store.get_revision(session, revision_key)
         _check_approved(revision, approved_only)
         inputs = resolve_inputs([revision])
-    recipe = recipes.make_recipe(kind, revisions=inputs.revision_hashes, params=params)
-    return get_or_compute(factory, recipe, inputs)
+        recipe = recipes.make_recipe(kind, revisions=inputs.revision_hashes, params=params)
+        return recipe, inputs, {}
+
+    return _resolve(
+        factory, _request_key(kind, revision_key, params, approved_only), resolve
+    )
 
 
 def family_blend(
@@ -350,14 +398,16 @@ def family_blend(
 ) -> ServedTable:
     """A family's table at one thickness and Reynolds number (``params`` as in
     :func:`polarsvc.recipes.blend_family`)."""
-    with session_scope(factory, write=False) as session:
+
+    def resolve(session: Session):
         members = select_family_members(
             session, family=family, surface=params["surface"], approved_only=approved_only
         )
         inputs = resolve_inputs(members)
-    recipe = recipes.make_recipe("blended", revisions=inputs.revision_hashes, params=params)
-    served = get_or_compute(factory, recipe, inputs)
-    return _with_extra(served, {"family": family})
+        recipe = recipes.make_recipe("blended", revisions=inputs.revision_hashes, params=params)
+        return recipe, inputs, {"family": family}
+
+    return _resolve(factory, _request_key("blended", family, params, approved_only), resolve)
 
 
 def blade_set(
@@ -371,7 +421,8 @@ def blade_set(
 
     ``options`` are the keywords of :func:`polarsvc.recipes.blade_set_params`.
     """
-    with session_scope(factory, write=False) as session:
+
+    def resolve(session: Session):
         blade = find_blade(session, blade_key)
         definition = blade_store.blade_definition(blade)
         params = recipes.blade_set_params(definition, **options)
@@ -380,12 +431,15 @@ def blade_set(
             approved_only=approved_only,
         )
         inputs = resolve_inputs(members, blade)
-        blade_hash = blade.content_hash
-    recipe = recipes.make_recipe(
-        "blade-set", revisions=inputs.revision_hashes, params=params, blade=blade_hash
+        recipe = recipes.make_recipe(
+            "blade-set", revisions=inputs.revision_hashes, params=params,
+            blade=blade.content_hash,
+        )
+        return recipe, inputs, {"family": definition["family"]}
+
+    return _resolve(
+        factory, _request_key("blade-set", blade_key, dict(options), approved_only), resolve
     )
-    served = get_or_compute(factory, recipe, inputs)
-    return _with_extra(served, {"family": definition["family"]})
 
 
 def find_blade(session: Session, key: str) -> BladeDefinition:
@@ -399,10 +453,6 @@ def find_blade(session: Session, key: str) -> BladeDefinition:
 
 def _looks_like_hash(key: str) -> bool:
     return len(key) >= 8 and all(c in "0123456789abcdef" for c in key.lower())
-
-
-def _with_extra(served: ServedTable, extra: dict[str, Any]) -> ServedTable:
-    return dataclasses.replace(served, extra={**served.extra, **extra})
 
 
 # -- stored derived tables: lookup, lineage, verification --------------------------------

@@ -137,3 +137,9 @@ ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
     422: {"model": ErrorOut, "description": "invalid input (line, field or parameter named)"},
 }
 """Error answers every resource may give, documented once for all routers."""
+
+IDENTICAL_EXISTS: dict[int | str, dict[str, object]] = {
+    200: {"description": "identical content was already stored; nothing was written"},
+    201: {"description": "stored"},
+}
+"""Answers of a create endpoint that is idempotent for identical content."""

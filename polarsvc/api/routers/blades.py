@@ -16,7 +16,7 @@ from polarsvc.api.routers.polars import (
     GridStep,
     approved_only_setting,
 )
-from polarsvc.api.schemas import ERROR_RESPONSES, BladeIn
+from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
 from polarsvc.api.served import served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
@@ -47,7 +47,10 @@ def list_blades(session: ReadSession, _: Reader):
     return json_response([blade_summary(b) for b in blade_store.list_blades(session)])
 
 
-@router.post("/blades", status_code=201, summary="Store a blade definition revision")
+@router.post(
+    "/blades", status_code=201, responses=IDENTICAL_EXISTS,
+    summary="Store a blade definition revision",
+)
 def add_blade(blade: BladeIn, request: Request, principal: Curator):
     definition = blade.model_dump(mode="json", exclude_none=True)
     with session_scope(request.app.state.session_factory, write=True) as session:

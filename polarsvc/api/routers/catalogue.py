@@ -8,7 +8,7 @@ from fastapi import APIRouter, Query, Request
 
 from polarsvc.api.deps import Curator, Reader, ReadSession
 from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES, AirfoilIn, FamilyIn
+from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, AirfoilIn, FamilyIn
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
@@ -45,7 +45,9 @@ def list_families(session: ReadSession, _: Reader):
     return json_response([family_summary(f) for f in airfoil_store.list_families(session)])
 
 
-@router.post("/families", status_code=201, summary="Create a family (curator)")
+@router.post(
+    "/families", status_code=201, responses=IDENTICAL_EXISTS, summary="Create a family (curator)"
+)
 def create_family(body: FamilyIn, request: Request, principal: Curator):
     with session_scope(request.app.state.session_factory, write=True) as session:
         family, created = airfoil_store.get_or_create_family(
@@ -59,6 +61,7 @@ def create_family(body: FamilyIn, request: Request, principal: Curator):
 @router.post(
     "/airfoils",
     status_code=201,
+    responses=IDENTICAL_EXISTS,
     summary="Create an airfoil (curator); an identical one is returned, a different one is 409",
 )
 def create_airfoil(body: AirfoilIn, request: Request, principal: Curator):
