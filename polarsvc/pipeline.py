@@ -8,6 +8,7 @@ the pages and the command line all call it.
 from __future__ import annotations
 
 import dataclasses
+import time
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -333,7 +334,14 @@ def _preference(revision: PolarRevision) -> tuple[int, int]:
 RESOLUTIONS: LruCache[tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]] = LruCache(
     max_entries=256
 )
-"""Requests already resolved to (recipe, inputs, extra), by request and write generation."""
+"""Requests already resolved to (recipe, inputs, extra), by request, write generation and a
+time bucket of :data:`RESOLUTION_LIFETIME_S`."""
+
+RESOLUTION_LIFETIME_S = 10.0
+"""A resolution is reused for at most this long. Within it, the write generation catches
+every write on SQLite (writers are serialised). On PostgreSQL a transaction holding a lower
+audit id can commit after one holding a higher id; the lifetime bounds how long such a
+write could go unseen by a cached resolution."""
 
 
 def write_generation(session: Session) -> int:
@@ -350,7 +358,8 @@ def _resolve(
     """Resolve a request to its recipe and inputs (or reuse the resolution made since the
     last write), then serve the table."""
     with session_scope(factory, write=False) as session:
-        key = (_database_key(factory), write_generation(session), *request_key)
+        bucket = int(time.monotonic() // RESOLUTION_LIFETIME_S)
+        key = (_database_key(factory), write_generation(session), bucket, *request_key)
         resolved = RESOLUTIONS.peek(key)
         if resolved is None:
             resolved = resolve(session)
