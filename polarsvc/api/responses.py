@@ -216,7 +216,11 @@ def table_response(
         body = _binary_body(entries, data, meta)
         return Response(body, media_type=BINARY_MEDIA_TYPE, headers=headers)
     if fmt == "csv":
-        comments = {k: v for k, v in meta.items() if isinstance(v, str | int | float)}
+        comments = {
+            key: (str(value).lower() if isinstance(value, bool) else value)
+            for key, value in meta.items()
+            if isinstance(value, str | int | float)
+        }
         body = encode_csv(
             alpha_deg, columns, comments=comments, stations_radius_m=stations_radius_m
         )
