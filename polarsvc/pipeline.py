@@ -202,10 +202,11 @@ def _database_key(factory: sessionmaker[Session]) -> str:
     return bind.url.render_as_string(hide_password=True) if bind is not None else ""
 
 
-def get_or_compute(
-    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
-) -> ServedTable:
-    """The table of ``recipe``: from the cache, or computed, stored and returned."""
+def cached_table(
+    session: Session, factory: sessionmaker[Session], recipe: dict[str, Any],
+    inputs: ResolvedInputs,
+) -> ServedTable | None:
+    """The table of ``recipe`` from memory or from the derived-table cache, else None."""
     key = compute_recipe_hash(recipe)
     memo_key = (_database_key(factory), key)
     recent = RECENT_TABLES.peek(memo_key)
@@ -213,12 +214,20 @@ def get_or_compute(
         return dataclasses.replace(
             recent, inputs=inputs.summaries, blade=inputs.blade_info, cached=True
         )
-    with session_scope(factory, write=False) as session:
-        row = derived_store.get_derived(session, recipe_hash=key)
-        if row is not None:
-            served = _from_row(row, inputs.summaries, inputs.blade_info, cached=True)
-            RECENT_TABLES.put(memo_key, served)
-            return served
+    row = derived_store.get_derived(session, recipe_hash=key)
+    if row is None:
+        return None
+    served = _from_row(row, inputs.summaries, inputs.blade_info, cached=True)
+    RECENT_TABLES.put(memo_key, served)
+    return served
+
+
+def compute_and_store(
+    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
+) -> ServedTable:
+    """Compute the table of ``recipe`` with the numeric core and cache it durably."""
+    key = compute_recipe_hash(recipe)
+    memo_key = (_database_key(factory), key)
     loaded: dict[str, Any] = {}
 
     def load_revision(content_hash: str) -> Any:
@@ -364,8 +373,10 @@ def _resolve(
         if resolved is None:
             resolved = resolve(session)
             RESOLUTIONS.put(key, resolved)
-    recipe, inputs, extra = resolved
-    served = get_or_compute(factory, recipe, inputs)
+        recipe, inputs, extra = resolved
+        served = cached_table(session, factory, recipe, inputs)
+    if served is None:
+        served = compute_and_store(factory, recipe, inputs)
     return dataclasses.replace(served, extra={**served.extra, **extra}) if extra else served
 
 
