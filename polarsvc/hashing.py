@@ -147,11 +147,15 @@ def decode_array_bytes(data: bytes, shape: tuple[int, ...] | None = None) -> NDA
     return array
 
 
+def _digest_of(shape: tuple[int, ...], data: bytes) -> str:
+    header = canonical_json({"dtype": "float64-le", "shape": list(shape)})
+    return hashlib.sha256(header + b"\n" + data).hexdigest()
+
+
 def array_digest(values: ArrayLike) -> str:
     """SHA-256 hex digest of an array's shape header and canonical bytes."""
     array = np.asarray(values, dtype=np.float64)
-    header = canonical_json({"dtype": "float64-le", "shape": list(array.shape)})
-    return hashlib.sha256(header + b"\n" + canonical_array_bytes(array)).hexdigest()
+    return _digest_of(array.shape, canonical_array_bytes(array))
 
 
 def _canonical_value(value: Any, path: str) -> Any:
@@ -299,8 +303,9 @@ def recipe_hash(recipe: Mapping[str, Any]) -> str:
     return _sha256_json({"format": "polarsvc.recipe.v1", "recipe": recipe})
 
 
-def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
-    """Hash of a derived table: the angle column and the coefficient arrays, in order.
+def canonical_table(alpha_deg: ArrayLike, *columns: ArrayLike) -> tuple[str, list[bytes]]:
+    """The content hash of a derived table and the canonical bytes of the angle column and of
+    each coefficient array, in order (each converted once, for hashing and storing alike).
 
     Parameters
     ----------
@@ -317,6 +322,7 @@ def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
     alpha = np.asarray(alpha_deg, dtype=np.float64)
     if alpha.ndim != 1:
         raise ValueError(f"alpha_deg: expected one dimension, got shape {alpha.shape}")
+    parts = [canonical_array_bytes(alpha)]
     digests = []
     for index, column in enumerate(columns):
         array = np.asarray(column, dtype=np.float64)
@@ -324,10 +330,22 @@ def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
             raise ValueError(
                 f"column {index}: shape {array.shape} does not end with {alpha.size} angles"
             )
-        digests.append(array_digest(array))
-    return _sha256_json(
-        {"format": "polarsvc.table.v1", "alpha_deg": array_digest(alpha), "columns": digests}
+        parts.append(canonical_array_bytes(array))
+        digests.append(_digest_of(array.shape, parts[-1]))
+    content_hash = _sha256_json(
+        {
+            "format": "polarsvc.table.v1",
+            "alpha_deg": _digest_of(alpha.shape, parts[0]),
+            "columns": digests,
+        }
     )
+    return content_hash, parts
+
+
+def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
+    """Hash of a derived table: the angle column and the coefficient arrays, in order
+    (see :func:`canonical_table`)."""
+    return canonical_table(alpha_deg, *columns)[0]
 
 
 def blade_content_hash(*, name: str, definition: Mapping[str, Any]) -> str:

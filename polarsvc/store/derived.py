@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -14,8 +15,8 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
 from polarsvc.hashing import (
-    canonical_array_bytes,
     canonical_json,
+    canonical_table,
     decode_array_bytes,
     recipe_hash,
     table_content_hash,
@@ -41,7 +42,7 @@ def get_derived(session: Session, *, recipe_hash: str) -> DerivedTable | None:
 
 def _stack(
     alpha_deg: ArrayLike, columns: Mapping[str, ArrayLike]
-) -> tuple[NDArray[np.float64], list[NDArray[np.float64]], NDArray[np.float64]]:
+) -> tuple[NDArray[np.float64], list[NDArray[np.float64]]]:
     alpha = np.asarray(alpha_deg, dtype=np.float64)
     if alpha.ndim != 1 or alpha.size < 2:
         raise InvalidValue("alpha_deg", f"expected >= 2 angles in one dimension, got {alpha.shape}")
@@ -54,8 +55,7 @@ def _stack(
             raise InvalidValue(
                 name, f"shape {array.shape} differs from {shape} or does not end with {alpha.size}"
             )
-    stacked = np.stack([np.broadcast_to(alpha, shape), *arrays])
-    return alpha, arrays, stacked
+    return alpha, arrays
 
 
 def put_derived(
@@ -108,9 +108,9 @@ def put_derived(
     check_choice("kind", kind, DERIVED_KINDS)
     if "kind" in recipe and recipe["kind"] != kind:
         raise InvalidValue("kind", f"{kind!r} differs from the recipe's {recipe['kind']!r}")
-    alpha, arrays, stacked = _stack(alpha_deg, columns)
+    alpha, arrays = _stack(alpha_deg, columns)
     key = recipe_hash(recipe)
-    content_hash = table_content_hash(alpha, *arrays)
+    content_hash, parts = canonical_table(alpha, *arrays)
     existing = get_derived(session, recipe_hash=key)
     if existing is not None:
         return _same_content(existing, content_hash), False
@@ -128,9 +128,10 @@ def put_derived(
         kind=kind,
         recipe=canonical_json(recipe).decode("utf-8"),
         content_hash=content_hash,
-        payload=canonical_array_bytes(stacked),
+        payload=b"".join(parts),
         payload_shape=canonical_json(
-            {"columns": list(columns), "shape": list(stacked.shape)}
+            {"columns": list(columns), "alpha_size": int(alpha.size),
+             "shape": list(arrays[0].shape)}
         ).decode("utf-8"),
         blade_id=blade_id,
         reports=None if reports is None else _reports_text(reports),
@@ -210,12 +211,17 @@ def derived_arrays(
     """
     layout = json.loads(table.payload_shape)
     shape = tuple(int(n) for n in layout["shape"])
+    names = layout["columns"]
+    n_alpha = int(layout["alpha_size"])
     try:
-        stacked = decode_array_bytes(bytes(table.payload), shape)
+        values = decode_array_bytes(bytes(table.payload))
+        if values.size != n_alpha + len(names) * math.prod(shape):
+            raise ValueError(f"{values.size} values do not fit the layout {layout}")
+        alpha = values[:n_alpha]
+        blocks = values[n_alpha:].reshape(len(names), *shape)
     except ValueError as exc:
         raise IntegrityProblem(f"derived table {table.recipe_hash}: {exc}") from None
-    alpha = stacked[0].reshape(-1, shape[-1])[0].copy()
-    columns = {name: stacked[i + 1] for i, name in enumerate(layout["columns"])}
+    columns = {name: blocks[i] for i, name in enumerate(names)}
     if table_content_hash(alpha, *columns.values()) != table.content_hash:
         raise IntegrityProblem(f"derived table {table.recipe_hash}: payload hash mismatch")
     return alpha, columns

@@ -181,12 +181,9 @@ class BladeDefinition(Base):
 class DerivedTable(Base):
     """A derived table cached under the hash of the recipe that produced it.
 
-    ``payload`` holds the canonical float64 bytes of the stacked array of shape
-    ``payload_shape`` (JSON ``{"columns": [names], "shape": [...]}``): index 0 of the first
-    axis is the angle of attack (broadcast over any station axis), the following ones the
-    coefficient columns, in the order of ``columns``.
-    ``reports`` is JSON text of what the steps reported (join angles, clamps, stations); it
-    is informative and not part of the content hash.
+    ``payload`` holds the canonical float64 bytes of the angle column followed by each
+    coefficient array in order; ``payload_shape`` (JSON ``{"columns": [names],
+    "alpha_size": n, "shape": [...]}``) gives the layout.
     """
 
     __tablename__ = "derived_table"
