@@ -189,10 +189,9 @@ def cmd_export(args: argparse.Namespace) -> int:
     factory = _factory(args)
     written = 0
     with session_scope(factory, write=False) as session:
-        for revision in polar_store.list_revisions(session, airfoil=args.airfoil):
-            if args.family and (revision.airfoil.family is None
-                                or revision.airfoil.family.name != args.family):
-                continue
+        for revision in polar_store.list_revisions(
+            session, airfoil=args.airfoil, family=args.family
+        ):
             polar = polar_store.load_polar(revision)
             provenance = polar_store.revision_provenance(revision)
             family = revision.airfoil.family.name if revision.airfoil.family else None

@@ -25,7 +25,7 @@ from polarsvc.store.errors import (
     InvalidValue,
     NotFound,
 )
-from polarsvc.store.models import REVIEW_STATES, SOURCE_KINDS, Airfoil, PolarRevision
+from polarsvc.store.models import REVIEW_STATES, SOURCE_KINDS, Airfoil, Family, PolarRevision
 
 REVIEW_TRANSITIONS: dict[str, tuple[str, ...]] = {
     "draft": ("approved", "deprecated"),
@@ -263,6 +263,7 @@ def list_revisions(
     session: Session,
     *,
     airfoil: str | None = None,
+    family: str | None = None,
     reynolds: float | None = None,
     surface: str | None = None,
     review_state: str | None = None,
@@ -272,6 +273,10 @@ def list_revisions(
     statement = select(PolarRevision).join(Airfoil)
     if airfoil is not None:
         statement = statement.where(Airfoil.name == airfoil)
+    if family is not None:
+        statement = statement.join(Family, Airfoil.family_id == Family.id).where(
+            Family.name == family
+        )
     if reynolds is not None:
         statement = statement.where(PolarRevision.reynolds == float(reynolds))
     if surface is not None:

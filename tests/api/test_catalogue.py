@@ -28,3 +28,17 @@ def test_airfoil_creation_is_idempotent_and_keeps_coordinates(client, tokens):
     families = client.get("/api/v1/families", headers=reader).json()
     assert families == [{**families[0], "name": "tern",
                          "airfoils": [{"name": "TERN-240", "thickness": 0.24}]}]
+
+
+def test_revision_listing_filters_by_family_surface_and_reynolds(demo_client, tokens):
+    reader = tokens.header("reader")
+    everything = demo_client.get("/api/v1/polars", params={"family": "skua"},
+                                 headers=reader).json()
+    assert len(everything) == 42  # 7 airfoils x 3 Reynolds numbers x 2 surfaces (seed data)
+    assert demo_client.get("/api/v1/polars", params={"family": "none"}, headers=reader
+                           ).json() == []
+    rough = demo_client.get("/api/v1/polars", params={"family": "skua", "surface": "rough",
+                                                      "reynolds": 8e6}, headers=reader).json()
+    assert {r["airfoil"] for r in rough} == {a["name"] for a in demo_client.get(
+        "/api/v1/airfoils", params={"family": "skua"}, headers=reader).json()}
+    assert all(r["conditions"]["surface"] == "rough" for r in rough)

@@ -81,10 +81,9 @@ def list_polars(
     review_state: Annotated[str | None, Query(max_length=16)] = None,
 ):
     rows = polar_store.list_revisions(
-        session, airfoil=airfoil, reynolds=reynolds, surface=surface, review_state=review_state
+        session, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
+        review_state=review_state,
     )
-    if family is not None:
-        rows = [r for r in rows if r.airfoil.family and r.airfoil.family.name == family]
     return json_response([revision_summary(r) for r in rows])
 
 
