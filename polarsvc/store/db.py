@@ -14,6 +14,7 @@ from __future__ import annotations
 import contextlib
 import os
 import sqlite3
+import time
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
@@ -58,14 +59,30 @@ def default_database_url() -> str:
     return f"sqlite:///{(DEFAULT_DATA_DIR / 'polarsvc.db').resolve()}"
 
 
+def _enable_wal(cursor: sqlite3.Cursor) -> None:
+    """Switch the database file to WAL (it stays so). On a new file, workers starting
+    together race for the lock this takes, and SQLite answers "database is locked" at once
+    instead of waiting, so the switch is retried for up to the busy timeout."""
+    deadline = time.monotonic() + SQLITE_BUSY_TIMEOUT_MS / 1000.0
+    while True:
+        try:
+            if cursor.execute("PRAGMA journal_mode").fetchone()[0].lower() != "wal":
+                cursor.execute("PRAGMA journal_mode=WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) or time.monotonic() > deadline:
+                raise
+            time.sleep(0.02)
+
+
 def _setup_sqlite(engine: Engine) -> None:
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_connection: sqlite3.Connection, connection_record: Any) -> None:
         dbapi_connection.isolation_level = None
         cursor = dbapi_connection.cursor()
         try:
-            cursor.execute("PRAGMA journal_mode=WAL")
             cursor.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
+            _enable_wal(cursor)
             cursor.execute("PRAGMA foreign_keys=ON")
             cursor.execute("PRAGMA synchronous=NORMAL")
         finally:
