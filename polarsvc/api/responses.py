@@ -164,11 +164,6 @@ def etag_matches(request: Request, etag: str) -> bool:
     return False
 
 
-def not_modified(etag: str) -> Response:
-    """The 304 answer, carrying the ETag again."""
-    return Response(status_code=304, headers={"ETag": etag})
-
-
 def _encoded_size(value: object) -> int:
     if isinstance(value, bytes):
         return len(value)
