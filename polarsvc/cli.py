@@ -124,11 +124,26 @@ def _prepare_demo(database_url: str) -> str:
             "run from a checkout of polarsvc"
         )
     load_demo(factory, seed_dir, actor=actor)
+    _store_default_blade_sets(factory)
     name = "demo-admin-" + dt.datetime.now(dt.UTC).strftime("%Y%m%dT%H%M%S")
     with session_scope(factory, write=True) as session:
         _, secret = token_store.create_token(session, name=name, role="admin", actor=actor)
     engine.dispose()
     return secret
+
+
+def _store_default_blade_sets(factory) -> None:
+    """Compute and store each blade's station tables with the default settings, so the
+    tables anonymous readers of the demo fetch first are stored, with a lineage (computed
+    tables of anonymous requests are served but not stored)."""
+    from polarsvc import pipeline
+    from polarsvc.store import blades as blade_store
+    from polarsvc.store.db import session_scope
+
+    with session_scope(factory, write=False) as session:
+        names = sorted({blade.name for blade in blade_store.list_blades(session)})
+    for name in names:
+        pipeline.blade_set(factory, blade_key=name, options={}, approved_only=False)
 
 
 # -- db ------------------------------------------------------------------------------------

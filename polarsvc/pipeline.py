@@ -38,8 +38,40 @@ from polarsvc.store.models import (
     PolarRevision,
 )
 
-CACHE_ACTOR = Actor(name="derived-cache", role="admin", remote_addr=None)
-"""The actor recorded when the service caches a table it computed for a reader."""
+CACHE_ACTOR = Actor(name="system", role="system", remote_addr=None)
+"""The actor of derived-table cache writes: the service itself, not the reader who asked.
+The requesting actor is recorded in the event (``detail.requested_by`` and its address)."""
+
+
+@dataclass(frozen=True)
+class CachePolicy:
+    """Who asks for a derived table, and whether a cache miss computed for them is stored.
+
+    - anonymous requests (role ``public``, servers with public reads) are computed and
+      served but never stored: anonymous traffic adds no rows and no audit events;
+    - reader-token requests are stored while the derived-table cache holds less than
+      ``reader_budget_bytes`` of payload (None: no bound), computed without storing beyond;
+    - curators, admins and the service itself (``requester`` None: command line, start-up)
+      always store.
+
+    Stored tables are never evicted (see DEVELOPERS.md, "Derived-table storage").
+    """
+
+    requester: Actor | None = None
+    reader_budget_bytes: int | None = None
+
+    def may_store(self, session: Session) -> bool:
+        if self.requester is None:
+            return True
+        if self.requester.role == "public":
+            return False
+        if self.requester.role == "reader" and self.reader_budget_bytes is not None:
+            return derived_store.total_payload_bytes(session) < self.reader_budget_bytes
+        return True
+
+
+SERVICE_POLICY = CachePolicy()
+"""The service's own requests: every computed table is stored."""
 
 CAUTION = (
     "Section tables feed load and energy calculations for machines whose failure can hurt "
@@ -91,6 +123,7 @@ class ServedTable:
     blade: dict[str, Any] | None = None
     cached: bool = False
     extra: dict[str, Any] = field(default_factory=dict)
+    stored: bool = True
 
     @property
     def deprecated_inputs(self) -> list[str]:
@@ -223,9 +256,11 @@ def cached_table(
 
 
 def compute_and_store(
-    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
+    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs,
+    policy: CachePolicy = SERVICE_POLICY,
 ) -> ServedTable:
-    """Compute the table of ``recipe`` with the numeric core and cache it durably."""
+    """Compute the table of ``recipe`` with the numeric core and, where ``policy`` allows,
+    cache it durably (else it is kept in memory only, in :data:`RECENT_TABLES`)."""
     key = compute_recipe_hash(recipe)
     memo_key = (_database_key(factory), key)
     loaded: dict[str, Any] = {}
@@ -246,33 +281,48 @@ def compute_and_store(
     reports = orjson.loads(
         orjson.dumps(result.reports, option=orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS)
     )
-    with session_scope(factory, write=True) as session:
-        row, created = derived_store.put_derived(
-            session,
-            recipe=recipe,
-            kind=recipe["kind"],
-            alpha_deg=result.alpha_deg,
-            columns=result.columns,
-            input_revision_ids=inputs.revision_ids,
-            blade_id=inputs.blade_id,
-            reports=reports,
-            actor=CACHE_ACTOR,
-        )
-        content_hash = row.content_hash
     served = ServedTable(
         kind=recipe["kind"],
         recipe=recipe,
         recipe_hash=key,
-        content_hash=content_hash,
+        content_hash=table_content_hash(result.alpha_deg, *result.columns.values()),
         alpha_deg=result.alpha_deg,
         columns=result.columns,
         reports=reports,
         inputs=inputs.summaries,
         blade=inputs.blade_info,
-        cached=not created,
+        cached=False,
+        stored=False,
     )
+    served = store_table(factory, served, inputs, policy)
     RECENT_TABLES.put(memo_key, served)
     return served
+
+
+def store_table(
+    factory: sessionmaker[Session], served: ServedTable, inputs: ResolvedInputs,
+    policy: CachePolicy,
+) -> ServedTable:
+    """Cache a computed table durably where ``policy`` allows (else return it unchanged,
+    marked not stored)."""
+    with session_scope(factory, write=False) as session:
+        if not policy.may_store(session):
+            return served
+    with session_scope(factory, write=True) as session:
+        row, created = derived_store.put_derived(
+            session,
+            recipe=served.recipe,
+            kind=served.kind,
+            alpha_deg=served.alpha_deg,
+            columns=served.columns,
+            input_revision_ids=inputs.revision_ids,
+            blade_id=inputs.blade_id,
+            reports=served.reports,
+            actor=CACHE_ACTOR,
+            requested_by=policy.requester,
+        )
+        content_hash = row.content_hash
+    return dataclasses.replace(served, content_hash=content_hash, cached=not created, stored=True)
 
 
 def _blade_info(blade: BladeDefinition | None) -> dict[str, Any] | None:
@@ -363,6 +413,7 @@ def _resolve(
     factory: sessionmaker[Session],
     request_key: tuple[Any, ...],
     resolve: Callable[[Session], tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]],
+    policy: CachePolicy,
 ) -> ServedTable:
     """Resolve a request to its recipe and inputs (or reuse the resolution made since the
     last write), then serve the table."""
@@ -376,7 +427,12 @@ def _resolve(
         recipe, inputs, extra = resolved
         served = cached_table(session, factory, recipe, inputs)
     if served is None:
-        served = compute_and_store(factory, recipe, inputs)
+        served = compute_and_store(factory, recipe, inputs, policy)
+    elif not served.stored:  # computed earlier for a request that did not store it
+        stored = store_table(factory, served, inputs, policy)
+        if stored.stored:
+            RECENT_TABLES.put((_database_key(factory), stored.recipe_hash), stored)
+            served = stored
     return dataclasses.replace(served, extra={**served.extra, **extra}) if extra else served
 
 
@@ -394,8 +450,10 @@ def revision_table(
     kind: str,
     params: Mapping[str, Any],
     approved_only: bool,
+    policy: CachePolicy = SERVICE_POLICY,
 ) -> ServedTable:
-    """A stored revision resampled, extended or augmented (``kind``)."""
+    """A stored revision resampled, extended or augmented (``kind``); ``params`` as made by
+    :func:`polarsvc.recipes.revision_table_params`."""
 
     def resolve(session: Session):
         revision = polar_store.get_revision(session, revision_key)
@@ -405,7 +463,7 @@ def revision_table(
         return recipe, inputs, {}
 
     return _resolve(
-        factory, _request_key(kind, revision_key, params, approved_only), resolve
+        factory, _request_key(kind, revision_key, params, approved_only), resolve, policy
     )
 
 
@@ -415,6 +473,7 @@ def family_blend(
     family: str,
     params: Mapping[str, Any],
     approved_only: bool,
+    policy: CachePolicy = SERVICE_POLICY,
 ) -> ServedTable:
     """A family's table at one thickness and Reynolds number (``params`` as in
     :func:`polarsvc.recipes.blend_family`)."""
@@ -427,7 +486,9 @@ def family_blend(
         recipe = recipes.make_recipe("blended", revisions=inputs.revision_hashes, params=params)
         return recipe, inputs, {"family": family}
 
-    return _resolve(factory, _request_key("blended", family, params, approved_only), resolve)
+    return _resolve(
+        factory, _request_key("blended", family, params, approved_only), resolve, policy
+    )
 
 
 def blade_set(
@@ -436,6 +497,7 @@ def blade_set(
     blade_key: str,
     options: Mapping[str, Any],
     approved_only: bool,
+    policy: CachePolicy = SERVICE_POLICY,
 ) -> ServedTable:
     """The station tables of a stored blade (name for the latest revision, or hash).
 
@@ -458,7 +520,8 @@ def blade_set(
         return recipe, inputs, {"family": definition["family"]}
 
     return _resolve(
-        factory, _request_key("blade-set", blade_key, dict(options), approved_only), resolve
+        factory, _request_key("blade-set", blade_key, dict(options), approved_only), resolve,
+        policy,
     )
 
 

@@ -15,7 +15,10 @@ Its hash (:func:`polarsvc.hashing.recipe_hash`) keys the derived-table cache, an
 recipe stored beside a derived table is enough to recompute it (verification). Execution is
 pure: revisions and blade definitions are supplied by loader callables; nothing here touches
 storage. The parameter builders (:func:`extension_params`, :func:`rotation_params`, ...) are
-the one place where defaults are written out, for the API, the command line and the pages.
+the one place where defaults are written out, for the API, the command line and the pages,
+and where every numeric parameter is canonicalised to its documented precision
+(:data:`PARAMETER_PRECISION`) before it enters a recipe: requests that differ below that
+precision are one recipe, one hash and one cached table.
 
 Steps per kind (each step is one function of :mod:`polarsvc.aero`):
 
@@ -57,6 +60,86 @@ no source; see domain notes)."""
 
 
 @dataclass(frozen=True)
+class Precision:
+    """How finely a numeric recipe parameter is kept.
+
+    ``significant`` keeps that many significant digits (strictly positive quantities: a
+    positive value never rounds to zero); ``decimals`` keeps that many digits after the point
+    (quantities that may be zero or negative). Rounding goes through the shortest decimal
+    text of the binary value (Python's ``format``), so it is the same on every machine.
+    """
+
+    significant: int | None = None
+    decimals: int | None = None
+    why: str = ""
+
+    def apply(self, value: float) -> float:
+        if self.significant is not None:
+            rounded = float(f"{value:.{self.significant - 1}e}")
+        else:
+            rounded = float(f"{value:.{self.decimals}f}")
+        return rounded + 0.0  # -0.0 becomes 0.0
+
+
+_ANGLE = Precision(decimals=3, why="0.001 deg: far below the 0.1 deg resolution of tunnel "
+                   "balances and the 0.5 deg served grid (common practice, no source)")
+_COEFFICIENT = Precision(decimals=4, why="1e-4: one drag count, the resolution quoted for "
+                         "section coefficients (common practice, no source)")
+_RATIO = Precision(significant=5, why="5 significant digits: 1e-5 relative, below any "
+                   "geometric or operating tolerance of a rotor (common practice, no source)")
+
+PARAMETER_PRECISION: dict[str, Precision] = {
+    # grid and full-range extension
+    "step_deg": Precision(significant=5, why="grid step; 5 significant digits"),
+    "aspect_ratio": _RATIO,
+    "cd_max": Precision(significant=4, why="drag at 90 deg, 4 significant digits (1e-3 "
+                        "at cd_max ~ 1.2-2; the published estimates differ by 0.1; common "
+                        "practice, no source)"),
+    "alpha_stall_pos_deg": _ANGLE,
+    "alpha_stall_neg_deg": _ANGLE,
+    "trailing_edge_lift_factor": _COEFFICIENT,
+    # rotational augmentation
+    "r_over_R": _RATIO,
+    "chord_over_r": _RATIO,
+    "tip_speed_ratio": _RATIO,
+    "twist_deg": _ANGLE,
+    "cl_alpha_per_rad": _RATIO,
+    "fade_start_deg": _ANGLE,
+    "fade_end_deg": _ANGLE,
+    # family blend and blade set
+    "thickness": Precision(significant=4, why="t/c to 4 significant digits (1e-4 chord at "
+                           "t/c 0.2; common practice, no source)"),
+    "reynolds": Precision(significant=4, why="4 significant digits: 0.1 % of Re, far below "
+                          "the Re dependence of section data (common practice, no source)"),
+    "wind_speed_m_s": _RATIO,
+    "rotor_speed_rpm": _RATIO,
+    "rho_kg_m3": _RATIO,
+    "mu_pa_s": _RATIO,
+}
+"""The precision each numeric recipe parameter is kept to before a recipe is hashed (the one
+place it is written down; DEVELOPERS.md points here). Values that round to the same number
+are the same request; the recipe records, and the table is computed from, the rounded value."""
+
+
+def canonical_parameter(name: str, value: float) -> float:
+    """``value`` rounded to the precision of parameter ``name`` (see
+    :data:`PARAMETER_PRECISION`).
+
+    Raises
+    ------
+    ParameterError
+        If the value is not a finite number.
+    """
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise ParameterError(name, f"must be a number, got {value!r}") from None
+    if not math.isfinite(number):
+        raise ParameterError(name, f"must be finite, got {value!r}")
+    return PARAMETER_PRECISION[name].apply(number)
+
+
+@dataclass(frozen=True)
 class DerivedResult:
     """A computed table: angles [deg], named coefficient arrays (1-D, or stations x angles for
     a blade set) and what the steps reported (join angles, clamps, station conditions)."""
@@ -72,12 +155,11 @@ def software_stamp() -> dict[str, str]:
 
 
 def _optional_float(name: str, value: Any) -> float | None:
-    if value is None:
-        return None
-    number = float(value)
-    if not math.isfinite(number):
-        raise ParameterError(name, f"must be finite, got {value!r}")
-    return number
+    return None if value is None else canonical_parameter(name, value)
+
+
+def _float(name: str, value: Any) -> float:
+    return canonical_parameter(name, value)
 
 
 def extension_params(
@@ -99,8 +181,10 @@ def extension_params(
         "cd_max": _optional_float("cd_max", cd_max),
         "alpha_stall_pos_deg": _optional_float("alpha_stall_pos_deg", alpha_stall_pos_deg),
         "alpha_stall_neg_deg": _optional_float("alpha_stall_neg_deg", alpha_stall_neg_deg),
-        "trailing_edge_lift_factor": float(trailing_edge_lift_factor),
-        "step_deg": float(step_deg),
+        "trailing_edge_lift_factor": _float(
+            "trailing_edge_lift_factor", trailing_edge_lift_factor
+        ),
+        "step_deg": _float("step_deg", step_deg),
     }
 
 
@@ -126,18 +210,18 @@ def rotation_params(
     params: dict[str, Any] = {
         "model": model,
         "cl_alpha_per_rad": _optional_float("cl_alpha_per_rad", cl_alpha_per_rad),
-        "fade_start_deg": float(fade_start_deg),
-        "fade_end_deg": float(fade_end_deg),
+        "fade_start_deg": _float("fade_start_deg", fade_start_deg),
+        "fade_end_deg": _float("fade_end_deg", fade_end_deg),
     }
     if station:
         if r_over_R is None or chord_over_r is None:
             missing = "r_over_R" if r_over_R is None else "chord_over_r"
             raise ParameterError(missing, "is required for rotational augmentation")
         params.update(
-            r_over_R=float(r_over_R),
-            chord_over_r=float(chord_over_r),
+            r_over_R=_float("r_over_R", r_over_R),
+            chord_over_r=_float("chord_over_r", chord_over_r),
             tip_speed_ratio=_optional_float("tip_speed_ratio", tip_speed_ratio),
-            twist_deg=float(twist_deg),
+            twist_deg=_float("twist_deg", twist_deg),
         )
     return params
 
@@ -300,9 +384,9 @@ def blade_set_params(
     ``{"model": "none"}`` for none."""
     operating = dict(blade.get("operating_point") or {})
     if wind_speed_m_s is not None:
-        operating["wind_speed_m_s"] = float(wind_speed_m_s)
+        operating["wind_speed_m_s"] = wind_speed_m_s
     if rotor_speed_rpm is not None:
-        operating["rotor_speed_rpm"] = float(rotor_speed_rpm)
+        operating["rotor_speed_rpm"] = rotor_speed_rpm
     for key in ("wind_speed_m_s", "rotor_speed_rpm"):
         if key not in operating:
             raise ParameterError(key, "is needed: the blade definition has no operating point")
@@ -314,14 +398,17 @@ def blade_set_params(
         "surface": surface or blade.get("surface", "clean"),
         "thickness_method": thickness_method,
         "clamp": bool(clamp),
-        "extension": dict(extension or extension_params()),
+        "extension": extension_params(**dict(extension or {})),
         "rotation": rotation_block,
-        "step_deg": float(step_deg),
+        "step_deg": _float("step_deg", step_deg),
         "operating_point": {
-            "wind_speed_m_s": float(operating["wind_speed_m_s"]),
-            "rotor_speed_rpm": float(operating["rotor_speed_rpm"]),
+            "wind_speed_m_s": _float("wind_speed_m_s", operating["wind_speed_m_s"]),
+            "rotor_speed_rpm": _float("rotor_speed_rpm", operating["rotor_speed_rpm"]),
         },
-        "air": {"rho_kg_m3": float(rho_kg_m3), "mu_pa_s": float(mu_pa_s)},
+        "air": {
+            "rho_kg_m3": _float("rho_kg_m3", rho_kg_m3),
+            "mu_pa_s": _float("mu_pa_s", mu_pa_s),
+        },
     }
 
 
@@ -423,11 +510,35 @@ def blend_params(
     if thickness_method not in aero.THICKNESS_METHODS:
         raise UnknownMethodError("thickness_method", thickness_method, aero.THICKNESS_METHODS)
     return {
-        "thickness": float(thickness),
-        "reynolds": float(reynolds),
+        "thickness": _float("thickness", thickness),
+        "reynolds": _float("reynolds", reynolds),
         "surface": surface,
         "thickness_method": thickness_method,
         "clamp": bool(clamp),
-        "extension": dict(extension or extension_params()),
-        "step_deg": float(step_deg),
+        "extension": extension_params(**dict(extension or {})),
+        "step_deg": _float("step_deg", step_deg),
     }
+
+
+def revision_table_params(
+    kind: str,
+    *,
+    step_deg: float = DEFAULT_STEP_DEG,
+    extension: Mapping[str, Any] | None = None,
+    rotation: Mapping[str, Any] | None = None,
+) -> dict[str, Any]:
+    """Parameters of a table derived from one revision (``resampled``, ``extended`` or
+    ``augmented``), canonicalised; ``rotation`` holds the keywords of
+    :func:`rotation_params` (station quantities included) and is required for
+    ``augmented``."""
+    if kind not in ("resampled", "extended", "augmented"):
+        raise UnknownMethodError("kind", kind, ("resampled", "extended", "augmented"))
+    params: dict[str, Any] = {}
+    if kind != "resampled":
+        params["extension"] = extension_params(**dict(extension or {}))
+    if kind == "augmented":
+        if rotation is None:
+            raise ParameterError("rotation", "is required for an augmented table")
+        params["rotation"] = rotation_params(**dict(rotation))
+    params["step_deg"] = _float("step_deg", step_deg)
+    return params

@@ -5,8 +5,18 @@ from __future__ import annotations
 from fastapi import Request
 from fastapi.responses import Response
 
+from polarsvc.api.deps import Principal
 from polarsvc.api.responses import table_response
-from polarsvc.pipeline import ServedTable
+from polarsvc.api.settings import Settings
+from polarsvc.pipeline import CachePolicy, ServedTable
+
+
+def cache_policy(settings: Settings, principal: Principal) -> CachePolicy:
+    """Whether tables computed for this request are stored (see
+    :class:`polarsvc.pipeline.CachePolicy`)."""
+    return CachePolicy(
+        requester=principal.actor(), reader_budget_bytes=settings.reader_cache_budget_bytes
+    )
 
 
 def served_response(request: Request, served: ServedTable, fmt: str) -> Response:
@@ -18,6 +28,7 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
     headers = {
         "X-Polarsvc-Recipe-Hash": served.recipe_hash,
         "X-Polarsvc-Cache": "hit" if served.cached else "miss",
+        "X-Polarsvc-Stored": "yes" if served.stored else "no",
     }
     if served.deprecated_inputs:
         headers["X-Polarsvc-Deprecated-Inputs"] = str(len(served.deprecated_inputs))

@@ -36,6 +36,11 @@ class Settings:
     read_only : bool
         Refuse every write (``POLARSVC_READ_ONLY``); required for public reads on a
         non-loopback address.
+    reader_cache_budget_bytes : int
+        Derived tables computed for reader tokens are stored while the derived-table cache
+        holds less than this many payload bytes (``POLARSVC_READER_CACHE_BUDGET_BYTES``,
+        1 GB by default), then computed without storing. Anonymous requests never store;
+        curators and admins always do (see :class:`polarsvc.pipeline.CachePolicy`).
     """
 
     database_url: str = field(default_factory=default_database_url)
@@ -44,6 +49,7 @@ class Settings:
     max_upload_bytes: int = 5_000_000
     apply_migrations: bool = True
     read_only: bool = False
+    reader_cache_budget_bytes: int = 1_000_000_000
 
     @classmethod
     def from_env(cls, **overrides: object) -> Settings:
@@ -54,6 +60,9 @@ class Settings:
             "approved_only": _env_flag("POLARSVC_APPROVED_ONLY", False),
             "read_only": _env_flag("POLARSVC_READ_ONLY", False),
             "max_upload_bytes": int(os.environ.get("POLARSVC_MAX_UPLOAD_BYTES", "5000000")),
+            "reader_cache_budget_bytes": int(
+                os.environ.get("POLARSVC_READER_CACHE_BUDGET_BYTES", "1000000000")
+            ),
         }
         values.update(overrides)
         return cls(**values)  # type: ignore[arg-type]

@@ -5,12 +5,13 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
 import orjson
 from numpy.typing import ArrayLike, NDArray
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
@@ -69,6 +70,7 @@ def put_derived(
     blade_id: int | None = None,
     reports: Mapping[str, Any] | None = None,
     actor: Actor,
+    requested_by: Actor | None = None,
 ) -> tuple[DerivedTable, bool]:
     """Cache a derived table under its recipe hash (idempotent).
 
@@ -91,6 +93,11 @@ def put_derived(
     reports : mapping, optional
         What the steps reported; stored as JSON text (non-finite numbers as null), not
         hashed.
+    actor : Actor
+        Who writes (the service itself when it caches a table computed for a request).
+    requested_by : Actor, optional
+        The request's actor, recorded in the audit event's detail (``requested_by``) and
+        address.
 
     Returns
     -------
@@ -146,6 +153,10 @@ def put_derived(
         if winner is None:
             raise
         return _same_content(winner, content_hash), False
+    detail: dict[str, Any] = {"kind": kind, "inputs": input_ids, "blade_id": blade_id}
+    if requested_by is not None:
+        detail["requested_by"] = {"name": requested_by.name, "role": requested_by.role}
+        actor = replace(actor, remote_addr=requested_by.remote_addr)
     record_event(
         session,
         actor=actor,
@@ -153,9 +164,19 @@ def put_derived(
         object_kind="derived_table",
         object_key=key,
         after_hash=content_hash,
-        detail={"kind": kind, "inputs": input_ids, "blade_id": blade_id},
+        detail=detail,
     )
     return table, True
+
+
+def total_payload_bytes(session: Session) -> int:
+    """Bytes of array payload held by the derived-table cache (the figure the reader budget
+    of :class:`polarsvc.pipeline.CachePolicy` bounds; both databases read the length from
+    the row header, not the blob)."""
+    return int(
+        session.scalar(select(func.coalesce(func.sum(func.length(DerivedTable.payload)), 0)))
+        or 0
+    )
 
 
 REPORTS_JSON_OPTIONS = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS | orjson.OPT_SORT_KEYS

@@ -12,7 +12,7 @@ from polarsvc.api.deps import ReadSession
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.web import plots, viewdata
-from polarsvc.web.security import PageError, PageReader
+from polarsvc.web.security import PageError, PageReader, Viewer
 
 SVG_MEDIA_TYPE = "image/svg+xml"
 CSV_MEDIA_TYPE = "text/csv; charset=utf-8"
@@ -63,7 +63,9 @@ def _span(request: Request) -> str:
     return span
 
 
-def _airfoil_series(request: Request, session, name: str) -> tuple[list[plots.PlotSeries], str]:
+def _airfoil_series(
+    request: Request, session, name: str, viewer: Viewer
+) -> tuple[list[plots.PlotSeries], str]:
     airfoil = airfoil_store.get_airfoil(session, name)
     revisions = polar_store.list_revisions(session, airfoil=name)
     revision = viewdata.choose_revision(
@@ -72,7 +74,9 @@ def _airfoil_series(request: Request, session, name: str) -> tuple[list[plots.Pl
     if revision is None:
         raise PageError(404, f"airfoil {name!r} holds no polar revision")
     inputs, _ = viewdata.parse_station_inputs(request.query_params)
-    tables = viewdata.airfoil_tables(request.app.state.session_factory, revision, inputs)
+    tables = viewdata.airfoil_tables(
+        request.app.state.session_factory, revision, inputs, viewer.cache_policy(request)
+    )
     return tables.series(_span(request)), revision.content_hash[:12]
 
 
@@ -82,7 +86,7 @@ def add_routes(router: APIRouter) -> None:
     def airfoil_plot_svg(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        series, short = _airfoil_series(request, session, name)
+        series, short = _airfoil_series(request, session, name, viewer)
         title = f"{name}: {plots.KIND_TITLES[_kind(kind)].lower()}"
         body = plots.polar_plots_svg(series, kind=kind, title=title)  # type: ignore[arg-type]
         return svg_response(body, download_name(name, short, kind))
@@ -92,22 +96,23 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _kind(kind)
-        series, short = _airfoil_series(request, session, name)
+        series, short = _airfoil_series(request, session, name, viewer)
         return csv_response(plots.series_csv(series), download_name(name, short, kind))
 
     # -- family -------------------------------------------------------------------------
-    def family_data(request: Request, session, name: str) -> viewdata.FamilyView:
+    def family_data(request: Request, session, name: str, viewer: Viewer) -> viewdata.FamilyView:
         family = airfoil_store.get_family(session, name)
         return viewdata.family_view(
             session, request.app.state.session_factory, family, request.query_params,
             approved_only=bool(request.app.state.settings.approved_only),
+            policy=viewer.cache_policy(request),
         )
 
     @router.get("/plots/families/{name}/members-{kind}.svg")
     def family_members_svg(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = family_data(request, session, name)
+        view = family_data(request, session, name, viewer)
         series, thickness = view.member_series(_span(request))
         body = plots.overlay_svg(
             series,
@@ -123,14 +128,14 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _kind(kind)
-        series, _ = family_data(request, session, name).member_series(_span(request))
+        series, _ = family_data(request, session, name, viewer).member_series(_span(request))
         return csv_response(plots.series_csv(series), download_name(name, "members", kind))
 
     @router.get("/plots/families/{name}/blend-{kind}.svg")
     def family_blend_svg(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = family_data(request, session, name)
+        view = family_data(request, session, name, viewer)
         body = plots.polar_plots_svg(
             view.blend_series(_span(request)),
             kind=_kind(kind),  # type: ignore[arg-type]
@@ -143,24 +148,25 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _kind(kind)
-        view = family_data(request, session, name)
+        view = family_data(request, session, name, viewer)
         return csv_response(
             plots.series_csv(view.blend_series(_span(request))),
             download_name(name, "blend", f"{view.thickness:g}", kind),
         )
 
     # -- blade --------------------------------------------------------------------------
-    def blade_data(request: Request, session, name: str) -> viewdata.BladeView:
+    def blade_data(request: Request, session, name: str, viewer: Viewer) -> viewdata.BladeView:
         return viewdata.blade_view(
             session, request.app.state.session_factory, name, request.query_params,
             approved_only=bool(request.app.state.settings.approved_only),
+            policy=viewer.cache_policy(request),
         )
 
     @router.get("/plots/blades/{name}/planform.svg")
     def blade_planform_svg(
         request: Request, name: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = blade_data(request, session, name)
+        view = blade_data(request, session, name, viewer)
         body = plots.blade_planform_svg(
             view.radius_m, view.chord_m, view.twist_deg, view.thickness,
             title=f"Blade {name} along the span",
@@ -171,7 +177,7 @@ def add_routes(router: APIRouter) -> None:
     def blade_planform_csv(
         request: Request, name: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = blade_data(request, session, name)
+        view = blade_data(request, session, name, viewer)
         body = plots.planform_csv(view.radius_m, view.chord_m, view.twist_deg, view.thickness)
         return csv_response(body, download_name(name, "planform"))
 
@@ -179,7 +185,7 @@ def add_routes(router: APIRouter) -> None:
     def blade_stations_svg(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = blade_data(request, session, name)
+        view = blade_data(request, session, name, viewer)
         series, radius = view.station_series(_span(request))
         body = plots.overlay_svg(
             series,
@@ -195,5 +201,5 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _kind(kind)
-        series, _ = blade_data(request, session, name).station_series(_span(request))
+        series, _ = blade_data(request, session, name, viewer).station_series(_span(request))
         return csv_response(plots.series_csv(series), download_name(name, "stations", kind))

@@ -127,7 +127,9 @@ def add_routes(router: APIRouter) -> None:
         tables = plots = derived = None
         provenance: list = []
         if selected is not None:
-            tables = viewdata.airfoil_tables(_factory(request), selected, inputs)
+            tables = viewdata.airfoil_tables(
+                _factory(request), selected, inputs, viewer.cache_policy(request)
+            )
             problems += tables.problems
             query = viewdata.station_query(inputs, selected)
             plots = _plot_links(
@@ -172,7 +174,7 @@ def add_routes(router: APIRouter) -> None:
         family = airfoil_store.get_family(session, name)
         view = viewdata.family_view(
             session, _factory(request), family, request.query_params,
-            approved_only=_approved_only(request),
+            approved_only=_approved_only(request), policy=viewer.cache_policy(request),
         )
         base = f"/plots/families/{url_name(name)}"
         query = view.query()
@@ -217,7 +219,7 @@ def add_routes(router: APIRouter) -> None:
     ) -> HTMLResponse:
         view = viewdata.blade_view(
             session, _factory(request), name, request.query_params,
-            approved_only=_approved_only(request),
+            approved_only=_approved_only(request), policy=viewer.cache_policy(request),
         )
         base = f"/plots/blades/{url_name(name)}"
         query = urlencode({"clamp": "yes" if view.clamp else "no"})

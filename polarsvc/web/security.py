@@ -15,6 +15,8 @@ from urllib.parse import quote
 from fastapi import Depends, Form, HTTPException, Request
 
 from polarsvc.api.deps import ROLE_RANK, SESSION_COOKIE, Principal, require_role
+from polarsvc.api.served import cache_policy
+from polarsvc.pipeline import CachePolicy
 from polarsvc.web.sessions import WebSessions, tokens_match
 
 SIGN_IN_COOKIE = "polarsvc_sign_in"
@@ -90,6 +92,10 @@ class Viewer:
     @property
     def is_curator(self) -> bool:
         return ROLE_RANK[self.principal.role] >= ROLE_RANK["curator"]
+
+    def cache_policy(self, request: Request) -> CachePolicy:
+        """Whether derived tables computed for this page are stored (anonymous: never)."""
+        return cache_policy(request.app.state.settings, self.principal)
 
 
 _reader = _page_role("reader")

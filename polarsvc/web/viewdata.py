@@ -218,22 +218,21 @@ def polar_columns(polar: Polar) -> dict[str, np.ndarray]:
 def extended_params() -> dict[str, Any]:
     """Parameters of the "extended" table shown on the airfoil page: the service defaults
     (:func:`polarsvc.recipes.extension_params`), so the page and the API share cache rows."""
-    return {"extension": recipes.extension_params(), "step_deg": recipes.DEFAULT_STEP_DEG}
+    return recipes.revision_table_params("extended")
 
 
 def augmented_params(inputs: StationInputs) -> dict[str, Any]:
     """Parameters of the "augmented" table at the page's station inputs."""
-    return {
-        "extension": recipes.extension_params(),
-        "rotation": recipes.rotation_params(
-            model=inputs.model,
-            r_over_R=inputs.r_over_R,
-            chord_over_r=inputs.chord_over_r,
-            tip_speed_ratio=inputs.tip_speed_ratio,
-            twist_deg=inputs.twist_deg,
-        ),
-        "step_deg": recipes.DEFAULT_STEP_DEG,
-    }
+    return recipes.revision_table_params(
+        "augmented",
+        rotation={
+            "model": inputs.model,
+            "r_over_R": inputs.r_over_R,
+            "chord_over_r": inputs.chord_over_r,
+            "tip_speed_ratio": inputs.tip_speed_ratio,
+            "twist_deg": inputs.twist_deg,
+        },
+    )
 
 
 @dataclass
@@ -278,7 +277,8 @@ class AirfoilTables:
 
 
 def airfoil_tables(
-    factory: sessionmaker[Session], revision: PolarRevision, inputs: StationInputs
+    factory: sessionmaker[Session], revision: PolarRevision, inputs: StationInputs,
+    policy: pipeline.CachePolicy = pipeline.SERVICE_POLICY,
 ) -> AirfoilTables:
     """Load ``revision``, its characteristic values, and (through the pipeline) its
     full-range extension and its rotational augmentation at ``inputs``. Drafts are shown
@@ -302,6 +302,7 @@ def airfoil_tables(
                 kind=kind,
                 params=make_params(),
                 approved_only=False,
+                policy=policy,
             )
         except AeroError as exc:
             problems.append(f"{kind} table: {exc}")
@@ -473,6 +474,7 @@ def family_view(
     params: Any,
     *,
     approved_only: bool,
+    policy: pipeline.CachePolicy = pipeline.SERVICE_POLICY,
 ) -> FamilyView:
     """Members and blend of ``family`` at the thickness, Reynolds number and surface in the
     query ``params`` (a mapping of strings)."""
@@ -514,6 +516,7 @@ def family_view(
                     thickness=thickness, reynolds=reynolds, surface=surface
                 ),
                 approved_only=approved_only,
+                policy=policy,
             )
         except (AeroError, NotFound) as exc:
             problems.append(f"blend: {exc}")
@@ -576,6 +579,7 @@ def blade_view(
     params: Any,
     *,
     approved_only: bool,
+    policy: pipeline.CachePolicy = pipeline.SERVICE_POLICY,
 ) -> BladeView:
     """Blade ``name`` (latest revision) and its station tables with the blade's own
     operating point and surface; ``clamp`` (query "yes"/"no", default yes) takes stations
@@ -593,7 +597,7 @@ def blade_view(
     try:
         tables = pipeline.blade_set(
             factory, blade_key=blade.content_hash, options={"clamp": clamp},
-            approved_only=approved_only,
+            approved_only=approved_only, policy=policy,
         )
         station_reports = tables.reports.get("stations") or []
         if len(station_reports) == columns["radius_m"].size:

@@ -17,7 +17,7 @@ from polarsvc.api.routers.polars import (
     approved_only_setting,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
-from polarsvc.api.served import served_response
+from polarsvc.api.served import cache_policy, served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
@@ -78,7 +78,7 @@ def get_blade(key: str, session: ReadSession, _: Reader):
     ),
 )
 def blade_tables(
-    key: str, request: Request, settings: SettingsDep, _: Reader, extension: ExtensionQuery,
+    key: str, request: Request, settings: SettingsDep, reader: Reader, extension: ExtensionQuery,
     rotation_model: Annotated[
         str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
     ] = "snel",
@@ -105,6 +105,7 @@ def blade_tables(
     served = pipeline.blade_set(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt)
 
@@ -114,7 +115,7 @@ def blade_tables(
     summary="A family's full-range table at any thickness and Reynolds number",
 )
 def family_blend(
-    name: str, request: Request, settings: SettingsDep, _: Reader, extension: ExtensionQuery,
+    name: str, request: Request, settings: SettingsDep, reader: Reader, extension: ExtensionQuery,
     thickness: Annotated[float, Query(gt=0, le=1, description="t/c as a fraction")],
     reynolds: Annotated[float, Query(gt=0)],
     surface: str = "clean",
@@ -134,5 +135,6 @@ def family_blend(
     served = pipeline.family_blend(
         request.app.state.session_factory, family=name, params=params,
         approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt)

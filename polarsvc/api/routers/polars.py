@@ -10,7 +10,7 @@ from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, table_response
 from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
-from polarsvc.api.served import served_response
+from polarsvc.api.served import cache_policy, served_response
 from polarsvc.api.settings import Settings
 from polarsvc.ingest import store_file
 from polarsvc.store import polars as polar_store
@@ -232,34 +232,34 @@ ExtensionQuery = Annotated[dict[str, Any], Depends(extension_query)]
 
 @router.get("/polars/{content_hash}/resampled", summary="A revision resampled onto a grid")
 def resampled(
-    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG, format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="resampled",
-        params={"step_deg": step_deg}, approved_only=approved_only_setting(settings, approved_only),
+        params=recipes.revision_table_params("resampled", step_deg=step_deg),
+        approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt)
 
 
 @router.get("/polars/{content_hash}/extended", summary="A revision extended to -180..180 deg")
 def extended(
-    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
     extension: ExtensionQuery,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
-    params = {
-        "extension": extension,
-        "step_deg": step_deg,
-    }
+    params = recipes.revision_table_params("extended", extension=extension, step_deg=step_deg)
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="extended",
         params=params, approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt)
 
@@ -269,7 +269,7 @@ def extended(
     summary="A revision extended to -180..180 deg and rotationally augmented",
 )
 def augmented(
-    content_hash: str, request: Request, settings: SettingsDep, _: Reader,
+    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
     extension: ExtensionQuery,
     r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
     chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
@@ -284,19 +284,21 @@ def augmented(
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
-    params = {
-        "extension": extension,
-        "rotation": recipes.rotation_params(
-            model=model, r_over_R=r_over_R, chord_over_r=chord_over_r,
-            tip_speed_ratio=tip_speed_ratio, twist_deg=twist_deg,
-            cl_alpha_per_rad=cl_alpha_per_rad, fade_start_deg=fade_start_deg,
-            fade_end_deg=fade_end_deg,
-        ),
-        "step_deg": step_deg,
-    }
+    params = recipes.revision_table_params(
+        "augmented",
+        extension=extension,
+        rotation={
+            "model": model, "r_over_R": r_over_R, "chord_over_r": chord_over_r,
+            "tip_speed_ratio": tip_speed_ratio, "twist_deg": twist_deg,
+            "cl_alpha_per_rad": cl_alpha_per_rad, "fade_start_deg": fade_start_deg,
+            "fade_end_deg": fade_end_deg,
+        },
+        step_deg=step_deg,
+    )
     served = pipeline.revision_table(
         request.app.state.session_factory, revision_key=content_hash, kind="augmented",
         params=params, approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt)
 
