@@ -6,8 +6,11 @@ from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
 from fastapi import FastAPI, Request
+from fastapi.exception_handlers import http_exception_handler
 from fastapi.exceptions import RequestValidationError
 from sqlalchemy.orm import sessionmaker
+from starlette.exceptions import HTTPException as StarletteHTTPException
+from starlette.routing import Match
 
 from polarsvc import __version__
 from polarsvc.aero.errors import AeroError, OutOfRangeError
@@ -91,7 +94,29 @@ def _detail_response(status: int, detail: object, **extra: object):
     return json_response({"detail": detail, **extra}, status_code=status)
 
 
+HTTP_METHODS = ("GET", "HEAD", "POST", "PUT", "PATCH", "DELETE", "OPTIONS")
+
+
+def allowed_methods(app: FastAPI, scope: dict) -> list[str]:
+    """Every method some route of ``app`` answers on the request's path (several routes
+    may share a path, one per method)."""
+    methods: set[str] = set()
+    for method in HTTP_METHODS:
+        probe = {**scope, "method": method}
+        if any(route.matches(probe)[0] == Match.FULL for route in app.router.routes):
+            methods.add(method)
+    return sorted(methods)
+
+
 def _install_error_handlers(app: FastAPI) -> None:
+    @app.exception_handler(StarletteHTTPException)
+    async def http_error(request: Request, exc: StarletteHTTPException):
+        if exc.status_code == 405:
+            allowed = allowed_methods(app, dict(request.scope))
+            if allowed:
+                exc.headers = {**(exc.headers or {}), "Allow": ", ".join(allowed)}
+        return await http_exception_handler(request, exc)
+
     @app.exception_handler(FormatError)
     async def format_error(_: Request, exc: FormatError):
         return _detail_response(

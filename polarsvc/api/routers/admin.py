@@ -3,10 +3,13 @@
 from __future__ import annotations
 
 import datetime as dt
+import re
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Query, Request
+from pydantic import WithJsonSchema
 
+from polarsvc.aero.errors import ParameterError
 from polarsvc.api.deps import Admin, Reader, ReadSession
 from polarsvc.api.responses import json_response
 from polarsvc.api.schemas import ERROR_RESPONSES, TokenIn
@@ -16,6 +19,54 @@ from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken, AuditEvent
 
 router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
+
+MOMENT_PATTERN = re.compile(
+    r"(?P<date>\d{4}-\d{2}-\d{2})[Tt ](?P<hms>\d{2}:\d{2}):(?P<second>\d{2})"
+    r"(?P<fraction>\.\d+)?(?P<zone>[Zz]|[+-]\d{2}:\d{2})"
+)
+"""An ISO 8601 / RFC 3339 date-time with a time zone (the audit filters take nothing else:
+a bare number is not read as a Unix time)."""
+
+Moment = Annotated[
+    str,
+    WithJsonSchema({"type": "string", "format": "date-time"}),
+    Query(description="ISO 8601 date-time with a time zone, e.g. 2026-01-01T00:00:00Z"),
+]
+
+
+def parse_moment(parameter: str, text: str | None) -> dt.datetime | None:
+    """An ISO 8601 date-time with a time zone, as a timezone-aware datetime.
+
+    A leap second (``:60``) is read as ``:59`` (the audit clock has none); a time outside the
+    years 1..9999 once converted to UTC is clamped to the nearest end.
+
+    Raises
+    ------
+    ParameterError
+        Naming ``parameter``, for anything else (a bare number, a date without time or zone).
+    """
+    if text is None:
+        return None
+    match = MOMENT_PATTERN.fullmatch(text.strip())
+    if match is None:
+        raise ParameterError(
+            parameter,
+            f"{text[:40]!r} is not an ISO 8601 date-time with a time zone "
+            "(e.g. 2026-01-01T00:00:00Z)",
+        )
+    second = min(int(match["second"]), 59)
+    zone = "+00:00" if match["zone"] in ("Z", "z") else match["zone"]
+    try:
+        value = dt.datetime.fromisoformat(
+            f"{match['date']}T{match['hms']}:{second:02d}{match['fraction'] or ''}{zone}"
+        )
+    except ValueError as exc:
+        raise ParameterError(parameter, f"{text[:40]!r} is not a valid date-time ({exc})") from None
+    try:
+        return value.astimezone(dt.UTC)
+    except OverflowError:
+        edge = dt.datetime.min if value.year < 5000 else dt.datetime.max
+        return edge.replace(tzinfo=dt.UTC)
 
 
 def token_summary(token: ApiToken) -> dict[str, Any]:
@@ -77,18 +128,14 @@ def revoke_token(name: str, request: Request, principal: Admin):
 def audit_trail(
     session: ReadSession,
     _: Reader,
-    since: dt.datetime | None = None,
-    until: dt.datetime | None = None,
+    since: Moment | None = None,
+    until: Moment | None = None,
     object: Annotated[str | None, Query(max_length=200)] = None,
     actor: Annotated[str | None, Query(max_length=200)] = None,
     limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
 ):
-    for name, value in (("since", since), ("until", until)):
-        if value is not None and value.tzinfo is None:
-            from fastapi import HTTPException
-
-            raise HTTPException(422, detail=f"{name} must carry a time zone (e.g. ...Z)")
     events = audit_store.query_events(
-        session, since=since, until=until, object_key=object, actor=actor, limit=limit
+        session, since=parse_moment("since", since), until=parse_moment("until", until),
+        object_key=object, actor=actor, limit=limit,
     )
     return json_response([event_summary(e) for e in events])

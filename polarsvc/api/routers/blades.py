@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Any
+from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Query, Request
 
 from polarsvc import pipeline, recipes
+from polarsvc.aero.interpolation import THICKNESS_METHODS
+from polarsvc.aero.rotation import ROTATION_MODELS
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import (
@@ -14,6 +16,7 @@ from polarsvc.api.routers.polars import (
     ExtensionQuery,
     FormatQuery,
     GridStep,
+    Surface,
     approved_only_setting,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
@@ -21,6 +24,9 @@ from polarsvc.api.served import cache_policy, served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
+
+ThicknessMethod = Literal[THICKNESS_METHODS]  # type: ignore[valid-type]
+BladeRotationModel = Literal[(*ROTATION_MODELS, "none")]  # type: ignore[valid-type]
 
 router = APIRouter(tags=["blades and blends"], responses=ERROR_RESPONSES)
 
@@ -80,10 +86,10 @@ def get_blade(key: str, session: ReadSession, _: Reader):
 def blade_tables(
     key: str, request: Request, settings: SettingsDep, reader: Reader, extension: ExtensionQuery,
     rotation_model: Annotated[
-        str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
+        BladeRotationModel, Query(description="rotational augmentation model, or none")
     ] = "snel",
-    surface: Annotated[str | None, Query(description="default: the blade's own")] = None,
-    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
+    surface: Annotated[Surface | None, Query(description="default: the blade's own")] = None,
+    thickness_method: ThicknessMethod = "linear",
     clamp: bool = False,
     wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
     rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
@@ -118,8 +124,8 @@ def family_blend(
     name: str, request: Request, settings: SettingsDep, reader: Reader, extension: ExtensionQuery,
     thickness: Annotated[float, Query(gt=0, le=1, description="t/c as a fraction")],
     reynolds: Annotated[float, Query(gt=0)],
-    surface: str = "clean",
-    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
+    surface: Surface = "clean",
+    thickness_method: ThicknessMethod = "linear",
     clamp: bool = False,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,

@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Literal
 
-from fastapi import APIRouter, Query, Request
+from fastapi import APIRouter, Request
 from fastapi.responses import PlainTextResponse
 
 from polarsvc import lineage, pipeline
@@ -32,7 +32,7 @@ def get_lineage(
     key: str,
     session: ReadSession,
     _: Reader,
-    format: Annotated[str, Query(pattern="^(json|text)$")] = "json",
+    format: Literal["json", "text"] = "json",
 ):
     tree = lineage.derived_node(session, pipeline.find_derived(session, key))
     if format == "text":

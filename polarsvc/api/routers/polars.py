@@ -2,20 +2,25 @@
 
 from __future__ import annotations
 
-from typing import Annotated, Any
+from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
 
 from polarsvc import pipeline, recipes
+from polarsvc.aero.extension import EXTENSION_METHODS
+from polarsvc.aero.polar import SURFACE_CONDITIONS
+from polarsvc.aero.rotation import ROTATION_MODELS
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
-from polarsvc.api.responses import choose_format, json_response, table_response
+from polarsvc.api.responses import FORMATS, choose_format, json_response, table_response
 from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
 from polarsvc.api.served import cache_policy, served_response
 from polarsvc.api.settings import Settings
+from polarsvc.formats.metadata import ANGLE_UNITS
 from polarsvc.ingest import store_file
+from polarsvc.provenance import SOURCE_KINDS
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
-from polarsvc.store.models import PolarRevision
+from polarsvc.store.models import REVIEW_STATES, PolarRevision
 
 router = APIRouter(tags=["polars"], responses=ERROR_RESPONSES)
 
@@ -27,8 +32,18 @@ TABLE_MEDIA_TYPES = (
     "application/octet-stream",
 )
 
+# Enumerated query parameters declare their values in the OpenAPI document (Literal of the
+# constants the core and the store check against).
+Surface = Literal[SURFACE_CONDITIONS]  # type: ignore[valid-type]
+ReviewState = Literal[REVIEW_STATES]  # type: ignore[valid-type]
+SourceKind = Literal[SOURCE_KINDS]  # type: ignore[valid-type]
+AngleUnit = Literal[tuple(ANGLE_UNITS)]  # type: ignore[valid-type]
+ExtensionMethod = Literal[EXTENSION_METHODS]  # type: ignore[valid-type]
+RotationModel = Literal[ROTATION_MODELS]  # type: ignore[valid-type]
+TableFormat = Literal[FORMATS]  # type: ignore[valid-type]
+
 FormatQuery = Annotated[
-    str | None, Query(description="json, csv or bin (else the Accept header decides)")
+    TableFormat | None, Query(description="json, csv or bin (else the Accept header decides)")
 ]
 ApprovedOnlyQuery = Annotated[
     bool | None,
@@ -76,9 +91,9 @@ def list_polars(
     _: Reader,
     airfoil: Annotated[str | None, Query(max_length=200)] = None,
     family: Annotated[str | None, Query(max_length=200)] = None,
-    surface: Annotated[str | None, Query(max_length=32)] = None,
+    surface: Surface | None = None,
     reynolds: Annotated[float | None, Query(gt=0)] = None,
-    review_state: Annotated[str | None, Query(max_length=16)] = None,
+    review_state: ReviewState | None = None,
 ):
     rows = polar_store.list_revisions(
         session, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
@@ -108,14 +123,14 @@ async def upload_polar(
     thickness: Annotated[str | None, Query(max_length=32)] = None,
     reynolds: Annotated[str | None, Query(max_length=32)] = None,
     mach: Annotated[str | None, Query(max_length=32)] = None,
-    surface: Annotated[str | None, Query(max_length=32)] = None,
-    source_kind: Annotated[str | None, Query(max_length=32)] = None,
+    surface: Surface | None = None,
+    source_kind: SourceKind | None = None,
     reference: Annotated[str | None, Query(max_length=2000)] = None,
     facility: Annotated[str | None, Query(max_length=2000)] = None,
     measured_on: Annotated[str | None, Query(max_length=32)] = None,
     contributor: Annotated[str | None, Query(max_length=2000)] = None,
     notes: Annotated[str | None, Query(max_length=4000)] = None,
-    angle_unit: Annotated[str | None, Query(max_length=8)] = None,
+    angle_unit: AngleUnit | None = None,
     supersedes: Annotated[str | None, Query(min_length=8, max_length=64)] = None,
     filename: Annotated[str | None, Query(max_length=300)] = None,
 ):
@@ -203,7 +218,9 @@ GridStep = Annotated[float, Query(gt=0.01, le=30, description="angle step of the
 
 
 def extension_query(
-    method: Annotated[str, Query(description="extension: viterna or flat-plate")] = "viterna",
+    method: Annotated[ExtensionMethod, Query(description="full-range extension method")] = (
+        "viterna"
+    ),
     aspect_ratio: Annotated[
         float | None, Query(gt=0, description="blade aspect ratio for cd_max (Viterna)")
     ] = None,
@@ -273,7 +290,7 @@ def augmented(
     extension: ExtensionQuery,
     r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
     chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
-    model: Annotated[str, Query(description="snel, du-selig or chaviaropoulos-hansen")] = "snel",
+    model: Annotated[RotationModel, Query(description="rotational augmentation model")] = "snel",
     tip_speed_ratio: Annotated[float | None, Query(gt=0, le=30)] = None,
     twist_deg: Annotated[float, Query(ge=-90, le=90)] = 0.0,
     cl_alpha_per_rad: Annotated[float | None, Query(gt=0, le=10)] = None,
