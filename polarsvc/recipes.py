@@ -54,6 +54,12 @@ RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
 
+GRID_STEPS_DEG: tuple[float, ...] = tuple(
+    k / 1000 for k in range(20, 10_001) if 360_000 % k == 0
+)
+"""Angle steps a served table may use [deg]: every step from 0.02 to 10 deg (at most three
+decimals) that divides -180..180 into whole steps, as the grid requires."""
+
 DEFAULT_FADE_DEG = (30.0, 50.0)
 """Rotational augmentation fully applied up to 30 deg, zero from 50 deg (common practice,
 no source; see domain notes)."""
@@ -78,6 +84,8 @@ class Precision:
             rounded = float(f"{value:.{self.significant - 1}e}")
         else:
             rounded = float(f"{value:.{self.decimals}f}")
+        if not math.isfinite(rounded):  # rounding up past the largest float: keep the value
+            rounded = value
         return rounded + 0.0  # -0.0 becomes 0.0
 
 

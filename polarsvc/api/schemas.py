@@ -9,11 +9,55 @@ from __future__ import annotations
 import datetime as dt
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, model_validator
+from fastapi import Path
+from pydantic import (
+    AwareDatetime,
+    BaseModel,
+    ConfigDict,
+    Field,
+    StrictFloat,
+    StrictInt,
+    field_validator,
+    model_validator,
+)
 
-Number = StrictFloat | StrictInt
-PositiveNumber = Annotated[Number, Field(gt=0, allow_inf_nan=False)]
-FiniteNumber = Annotated[Number, Field(allow_inf_nan=False)]
+
+def number(**bounds: float) -> object:
+    """A strict JSON number (float or integer, never a boolean or a string), finite, within
+    ``bounds`` (gt, ge, lt, le). The bounds are set on each member of the union so the
+    OpenAPI document states them (a bound on the union itself is not published as JSON
+    Schema)."""
+    return Annotated[
+        Annotated[StrictFloat, Field(allow_inf_nan=False, **bounds)]
+        | Annotated[StrictInt, Field(**bounds)],
+        Field(),
+    ]
+
+
+Number = number()
+PositiveNumber = number(gt=0)
+FiniteNumber = number()
+
+_EDGE = r"[^\x00-\x20\x7f-\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000\ufeff]"
+NAME_PATTERN = rf"^{_EDGE}(?:[^\x00-\x1f\x7f-\x9f]*{_EDGE})?$"
+"""A name: no control characters, no white space at either end (by the definitions of both
+Python's ``str.strip`` and JSON Schema's ECMA-262 ``\\s``, which differ)."""
+
+Name = Annotated[
+    str,
+    Field(min_length=1, max_length=200, pattern=NAME_PATTERN,
+          description="a name: no control characters, no white space at either end"),
+]
+"""The name of a family, airfoil, blade or token as the request schema states it (the store
+checks it again, see :func:`polarsvc.store._lookup.check_name`)."""
+
+HASH_KEY_PATTERN = r"^[0-9a-fA-F]{8,64}$"
+HashKey = Annotated[
+    str,
+    Path(pattern=HASH_KEY_PATTERN,
+         description="a full sha256 hex digest, or a unique prefix of at least 8 digits"),
+]
+"""A path parameter naming a stored revision or derived table by hash."""
 
 
 class StrictModel(BaseModel):
@@ -25,13 +69,13 @@ class ReviewChange(StrictModel):
 
     state: Literal["approved", "deprecated"]
     reason: Annotated[str, Field(max_length=4000)] | None = None
-    replaced_by: Annotated[str, Field(min_length=8, max_length=64)] | None = None
+    replaced_by: Annotated[str, Field(pattern=HASH_KEY_PATTERN)] | None = None
 
 
 class FamilyIn(StrictModel):
     """A new airfoil family."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
     description: Annotated[str, Field(max_length=4000)] = ""
 
 
@@ -45,11 +89,11 @@ class CoordinatesIn(StrictModel):
 class AirfoilIn(StrictModel):
     """A new airfoil."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
-    thickness: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] = Field(
+    name: Name
+    thickness: number(gt=0, le=1) = Field(  # type: ignore[valid-type]
         description="relative thickness t/c as a fraction (0.21, not 21)"
     )
-    family: Annotated[str, Field(min_length=1, max_length=200)] | None = None
+    family: Name | None = None
     description: Annotated[str, Field(max_length=4000)] = ""
     coordinates: CoordinatesIn | None = None
 
@@ -59,8 +103,8 @@ class StationIn(StrictModel):
 
     radius_m: PositiveNumber
     chord_m: PositiveNumber
-    twist_deg: Annotated[Number, Field(ge=-90, le=90, allow_inf_nan=False)]
-    thickness: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] = Field(
+    twist_deg: number(ge=-90, le=90)  # type: ignore[valid-type]
+    thickness: number(gt=0, le=1) = Field(  # type: ignore[valid-type]
         description="relative thickness t/c as a fraction (0.21, not 21)"
     )
 
@@ -77,10 +121,10 @@ class BladeIn(BaseModel):
 
     model_config = ConfigDict(extra="allow", strict=True)
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
-    family: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
+    family: Name
     rotor_radius_m: PositiveNumber
-    hub_radius_m: Annotated[Number, Field(ge=0, allow_inf_nan=False)] = 0.0
+    hub_radius_m: number(ge=0) = 0.0  # type: ignore[valid-type]
     blade_count: Annotated[int, Field(ge=1, le=20)] = 3
     surface: Literal["clean", "tripped", "rough"] = "clean"
     operating_point: OperatingPointIn | None = None
@@ -110,11 +154,22 @@ class BladeIn(BaseModel):
 class TokenIn(StrictModel):
     """A new API token."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
     role: Literal["reader", "curator", "admin"]
-    expires_at: dt.datetime | None = Field(
-        default=None, description="timezone-aware expiry; none means no expiry"
+    expires_at: Annotated[AwareDatetime, Field(strict=False)] | None = Field(
+        default=None, description="timezone-aware expiry (ISO 8601 with a zone); none means "
+        "no expiry"
     )
+
+    @field_validator("expires_at")
+    @classmethod
+    def expires_within_the_calendar(cls, value: dt.datetime | None) -> dt.datetime | None:
+        if value is None:
+            return None
+        try:
+            return value.astimezone(dt.UTC)
+        except OverflowError:
+            raise ValueError("lies outside the years 1..9999 once converted to UTC") from None
 
 
 class ErrorOut(BaseModel):
@@ -137,6 +192,20 @@ ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
     422: {"model": ErrorOut, "description": "invalid input (line, field or parameter named)"},
 }
 """Error answers every resource may give, documented once for all routers."""
+
+TABLE_RESPONSES: dict[int | str, dict[str, object]] = {
+    200: {
+        "description": "the table: JSON (default), CSV (`format=csv` or `Accept: text/csv`) "
+        "or the binary form (`format=bin` or `Accept: application/vnd.polarsvc.table`)",
+        "content": {
+            "application/json": {},
+            "text/csv": {"schema": {"type": "string"}},
+            "application/vnd.polarsvc.table": {"schema": {"type": "string",
+                                                          "format": "binary"}},
+        },
+    },
+}
+"""The representations of a table answer (see polarsvc.api.responses)."""
 
 IDENTICAL_EXISTS: dict[int | str, dict[str, object]] = {
     200: {"description": "identical content was already stored; nothing was written"},

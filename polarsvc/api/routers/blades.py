@@ -19,7 +19,7 @@ from polarsvc.api.routers.polars import (
     Surface,
     approved_only_setting,
 )
-from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
+from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, TABLE_RESPONSES, BladeIn
 from polarsvc.api.served import cache_policy, served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
@@ -75,6 +75,7 @@ def get_blade(key: str, session: ReadSession, _: Reader):
 
 @router.get(
     "/blades/{key}/tables",
+    responses=TABLE_RESPONSES,
     summary="The full set of station tables of a blade (stations x angles)",
     description=(
         "Extends every family member to -180..180 deg, interpolates to each station's "
@@ -118,12 +119,13 @@ def blade_tables(
 
 @router.get(
     "/families/{name}/blend",
+    responses=TABLE_RESPONSES,
     summary="A family's full-range table at any thickness and Reynolds number",
 )
 def family_blend(
     name: str, request: Request, settings: SettingsDep, reader: Reader, extension: ExtensionQuery,
     thickness: Annotated[float, Query(gt=0, le=1, description="t/c as a fraction")],
-    reynolds: Annotated[float, Query(gt=0)],
+    reynolds: Annotated[float, Query(gt=0, le=1e10)],
     surface: Surface = "clean",
     thickness_method: ThicknessMethod = "linear",
     clamp: bool = False,

@@ -11,14 +11,16 @@ from polarsvc import lineage, pipeline
 from polarsvc.api.deps import Reader, ReadSession
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import FormatQuery
-from polarsvc.api.schemas import ERROR_RESPONSES
+from polarsvc.api.schemas import ERROR_RESPONSES, TABLE_RESPONSES, HashKey
 from polarsvc.api.served import served_response
 
 router = APIRouter(tags=["derived tables and lineage"], responses=ERROR_RESPONSES)
 
 
-@router.get("/derived/{key}", summary="A cached derived table by content or recipe hash")
-def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = None):
+@router.get(
+    "/derived/{key}", responses=TABLE_RESPONSES,
+    summary="A cached derived table by content or recipe hash")
+def get_derived(key: HashKey, request: Request, _: Reader, format: FormatQuery = None):
     fmt = choose_format(request, format)
     served = pipeline.stored_table(request.app.state.session_factory, key)
     return served_response(request, served, fmt)
@@ -26,6 +28,9 @@ def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = Non
 
 @router.get(
     "/derived/{key}/lineage",
+    responses={200: {"description": "the lineage tree (JSON) or its text form",
+                     "content": {"application/json": {},
+                                 "text/plain": {"schema": {"type": "string"}}}}},
     summary="The tree of inputs of a derived table, down to stored revisions",
     description=(
         "By recipe hash: that table's tree. By content hash: the tree, or, when several "
@@ -33,7 +38,7 @@ def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = Non
     ),
 )
 def get_lineage(
-    key: str,
+    key: HashKey,
     session: ReadSession,
     _: Reader,
     format: Literal["json", "text"] = "json",
@@ -52,5 +57,5 @@ def get_lineage(
         "match, `recipes` holds one report per recipe."
     ),
 )
-def verify(key: str, request: Request, _: Reader):
+def verify(key: HashKey, request: Request, _: Reader):
     return json_response(pipeline.verify_derived(request.app.state.session_factory, key))

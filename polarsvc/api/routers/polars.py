@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from pydantic import AfterValidator, WithJsonSchema
 
 from polarsvc import pipeline, recipes
 from polarsvc.aero.extension import EXTENSION_METHODS
@@ -12,7 +13,13 @@ from polarsvc.aero.polar import SURFACE_CONDITIONS
 from polarsvc.aero.rotation import ROTATION_MODELS
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import FORMATS, choose_format, json_response, table_response
-from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    HASH_KEY_PATTERN,
+    TABLE_RESPONSES,
+    HashKey,
+    ReviewChange,
+)
 from polarsvc.api.served import cache_policy, served_response
 from polarsvc.api.settings import Settings
 from polarsvc.formats.metadata import ANGLE_UNITS
@@ -131,7 +138,7 @@ async def upload_polar(
     contributor: Annotated[str | None, Query(max_length=2000)] = None,
     notes: Annotated[str | None, Query(max_length=4000)] = None,
     angle_unit: AngleUnit | None = None,
-    supersedes: Annotated[str | None, Query(min_length=8, max_length=64)] = None,
+    supersedes: Annotated[str | None, Query(pattern=HASH_KEY_PATTERN)] = None,
     filename: Annotated[str | None, Query(max_length=300)] = None,
 ):
     """The body is the file itself. Query parameters fill metadata the file does not give.
@@ -181,7 +188,7 @@ async def upload_polar(
 
 
 @router.get("/polars/{content_hash}", summary="A revision: metadata, provenance and table")
-def get_polar(content_hash: str, session: ReadSession, _: Reader):
+def get_polar(content_hash: HashKey, session: ReadSession, _: Reader):
     revision = polar_store.get_revision(session, content_hash)
     polar = polar_store.load_polar(revision)
     table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
@@ -190,9 +197,11 @@ def get_polar(content_hash: str, session: ReadSession, _: Reader):
     return json_response({**revision_summary(revision), "table": table})
 
 
-@router.get("/polars/{content_hash}/table", summary="A revision's table as stored")
+@router.get(
+    "/polars/{content_hash}/table", responses=TABLE_RESPONSES,
+    summary="A revision's table as stored")
 def get_polar_table(
-    content_hash: str, request: Request, session: ReadSession, _: Reader,
+    content_hash: HashKey, request: Request, session: ReadSession, _: Reader,
     format: FormatQuery = None,
 ):
     fmt = choose_format(request, format)
@@ -214,7 +223,21 @@ def get_polar_table(
     )
 
 
-GridStep = Annotated[float, Query(gt=0.01, le=30, description="angle step of the table [deg]")]
+def _grid_step(value: float) -> float:
+    if value not in recipes.GRID_STEPS_DEG:
+        raise ValueError(
+            "must divide -180..180 deg into whole steps, between 0.02 and 10 deg with at most "
+            "three decimals (e.g. 0.1, 0.25, 0.5, 1, 2.5, 5)"
+        )
+    return value
+
+
+GridStep = Annotated[
+    float,
+    AfterValidator(_grid_step),
+    WithJsonSchema({"type": "number", "enum": list(recipes.GRID_STEPS_DEG)}),
+    Query(description="angle step of the table [deg]; one that divides 360 deg"),
+]
 
 
 def extension_query(
@@ -247,9 +270,11 @@ def extension_query(
 ExtensionQuery = Annotated[dict[str, Any], Depends(extension_query)]
 
 
-@router.get("/polars/{content_hash}/resampled", summary="A revision resampled onto a grid")
+@router.get(
+    "/polars/{content_hash}/resampled", responses=TABLE_RESPONSES,
+    summary="A revision resampled onto a grid")
 def resampled(
-    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
+    content_hash: HashKey, request: Request, settings: SettingsDep, reader: Reader,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG, format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
@@ -263,9 +288,11 @@ def resampled(
     return served_response(request, served, fmt)
 
 
-@router.get("/polars/{content_hash}/extended", summary="A revision extended to -180..180 deg")
+@router.get(
+    "/polars/{content_hash}/extended", responses=TABLE_RESPONSES,
+    summary="A revision extended to -180..180 deg")
 def extended(
-    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
+    content_hash: HashKey, request: Request, settings: SettingsDep, reader: Reader,
     extension: ExtensionQuery,
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
@@ -283,10 +310,11 @@ def extended(
 
 @router.get(
     "/polars/{content_hash}/augmented",
+    responses=TABLE_RESPONSES,
     summary="A revision extended to -180..180 deg and rotationally augmented",
 )
 def augmented(
-    content_hash: str, request: Request, settings: SettingsDep, reader: Reader,
+    content_hash: HashKey, request: Request, settings: SettingsDep, reader: Reader,
     extension: ExtensionQuery,
     r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
     chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
@@ -321,7 +349,7 @@ def augmented(
 
 
 @router.post("/polars/{content_hash}/review", summary="Approve or deprecate a revision")
-def review_polar(content_hash: str, change: ReviewChange, request: Request, principal: Curator):
+def review_polar(content_hash: HashKey, change: ReviewChange, request: Request, principal: Curator):
     with session_scope(request.app.state.session_factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=content_hash, state=change.state, reason=change.reason,
@@ -334,7 +362,7 @@ def review_polar(content_hash: str, change: ReviewChange, request: Request, prin
     "/polars/{content_hash}/used-by",
     summary="Reverse lineage: the derived tables and blade sets computed from a revision",
 )
-def used_by(content_hash: str, session: ReadSession, _: Reader):
+def used_by(content_hash: HashKey, session: ReadSession, _: Reader):
     revision = polar_store.get_revision(session, content_hash)
     from polarsvc.store import derived as derived_store
 
