@@ -2,8 +2,9 @@
 document, against a live ``polarsvc serve --demo`` process on SQLite and on PostgreSQL:
 no server errors, answers that match the document, schema-valid requests accepted and
 schema-invalid ones refused (tests/api/schemathesis.toml says where a rule the schema cannot
-state allows a 422). Bounded in examples per operation and in time. One worker: with several, hypothesis's
-shared caches race inside the schemathesis process and report internal errors.
+state allows a 422). Bounded in examples per operation and in time. One worker: with
+several, hypothesis's shared caches race inside the schemathesis process and report internal
+errors.
 
 The figures of the last run (operations, test cases, failures, seconds) are printed and
 recorded in DEVELOPERS.md.
