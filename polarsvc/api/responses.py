@@ -191,6 +191,7 @@ def table_response(
     meta: Mapping[str, Any],
     stations_radius_m: list[float] | None = None,
     extra_headers: Mapping[str, str] | None = None,
+    csv_comments: Mapping[str, str] | None = None,
 ) -> Response:
     """Encode a table in the chosen format, with ETag, 304 on a matching If-None-Match, and
     the content hash in ``X-Polarsvc-Content-Hash``.
@@ -198,6 +199,8 @@ def table_response(
     The ETag names the content hash, the format and a digest of the metadata (which holds
     the inputs' current review states), so a review change is never hidden behind a 304.
     The encoded arrays are kept in :data:`ENCODED` under the content hash.
+    ``csv_comments`` are further ``# key: value`` lines of the CSV form (values the metadata
+    holds only in nested form, such as per-station values).
     """
     meta_bytes = dumps(meta)
     etag = etag_for(f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}", fmt)
@@ -216,6 +219,7 @@ def table_response(
             for key, value in meta.items()
             if isinstance(value, str | int | float)
         }
+        comments.update(csv_comments or {})
         body = encode_csv(
             alpha_deg, columns, comments=comments, stations_radius_m=stations_radius_m
         )
