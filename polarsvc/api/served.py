@@ -32,7 +32,7 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
         meta=served.meta(),
         stations_radius_m=radii,
         extra_headers=headers,
-        csv_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
+        extra_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
     )
 
 
