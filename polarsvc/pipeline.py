@@ -278,14 +278,14 @@ def compute_and_store(
         load_blade=(lambda _hash: definition) if definition is not None else None,
         family_cache=PREPARED_FAMILIES.get,
     )
-    reports = orjson.loads(
-        orjson.dumps(result.reports, option=orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS)
-    )
+    # the reports are served as computed (orjson encodes numpy values in responses) and
+    # stored as JSON text once, by put_derived: no encode-decode round trip on a miss
+    reports = dict(result.reports)
     served = ServedTable(
         kind=recipe["kind"],
         recipe=recipe,
         recipe_hash=key,
-        content_hash=table_content_hash(result.alpha_deg, *result.columns.values()),
+        content_hash="",  # set by the store, or below when the table is not stored
         alpha_deg=result.alpha_deg,
         columns=result.columns,
         reports=reports,
@@ -295,6 +295,10 @@ def compute_and_store(
         stored=False,
     )
     served = store_table(factory, served, inputs, policy)
+    if not served.stored:
+        served = dataclasses.replace(
+            served, content_hash=table_content_hash(result.alpha_deg, *result.columns.values())
+        )
     RECENT_TABLES.put(memo_key, served)
     return served
 
