@@ -452,10 +452,10 @@ def blade_set_params(
     broadside: dict[str, Any] = {"source": "extension parameters"}
     if extension_block.get("aspect_ratio") is None and extension_block.get("cd_max") is None:
         stations = blade["stations"]
-        ratio = _float("aspect_ratio", aero.blade_aspect_ratio(
+        ratio = aero.blade_aspect_ratio(  # from the stored blade: not a request value
             [s["radius_m"] for s in stations], [s["chord_m"] for s in stations],
             float(blade["rotor_radius_m"]), blade.get("hub_radius_m"),
-        ))
+        )
         extension_block["aspect_ratio"] = ratio
         broadside = {
             "source": "blade",
