@@ -11,14 +11,20 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from polarsvc.bundle.layout import (
     AIRFOILS_FILE,
-    AUDIT_COLUMNS,
     BLADES_FILE,
     FAMILIES_FILE,
     IMPORT_ACTION,
     REVISIONS_FILE,
     BundleError,
 )
-from polarsvc.bundle.read import _Content, _parse_content, _read_files
+from polarsvc.bundle.read import (
+    _Content,
+    _parse_content,
+    _read_files,
+    check_history,
+    original_actor,
+)
+from polarsvc.hashing import canonical_json
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
@@ -26,6 +32,7 @@ from polarsvc.store.audit import Actor, record_event, replaying_history
 from polarsvc.store.db import session_scope
 from polarsvc.store.errors import StoreError
 from polarsvc.store.models import (
+    NAME_LENGTH,
     Airfoil,
     AuditEvent,
     BladeDefinition,
@@ -171,13 +178,48 @@ def _restore(session: Session, content: _Content, actor: Actor) -> None:
                 raise BundleError(BLADES_FILE, f"blade {entry['content_hash']} listed twice")
             blade.created_at = entry["created_at"]
     session.flush()
-    # Audit events are append-only and record_event stamps them "now": the bundle's events
-    # are inserted as new rows carrying their original values (new ids, original order).
-    session.add_all(
-        AuditEvent(**{name: row[name] for name in AUDIT_COLUMNS if name != "id"})
-        for row in content.audit
-    )
-    session.flush()
+
+
+HISTORY_ROLE = "imported"
+"""The actor role of events imported from a bundle (no token can hold it)."""
+HISTORY_PREFIX = "imported:"
+"""Prefix of the actor name of imported events (a local actor's name never carries it)."""
+
+
+def _add_history(
+    session: Session, content: _Content, bundle_sha256: str, import_event: AuditEvent
+) -> None:
+    """Insert the bundle's events as history after ``import_event``, in their recorded
+    order: stamped now (so ids keep time order) by an ``imported:<name>`` actor of role
+    ``imported``; the recorded id, time, actor, address and detail are kept in the detail."""
+    rows = sorted(content.audit, key=lambda row: (row["occurred_at"], row["id"]))
+    for row in rows:
+        first = original_actor(row)
+        detail = {
+            "imported": {
+                "bundle": bundle_sha256,
+                "import_event": import_event.id,
+                "id": row["id"],
+                "occurred_at": row["occurred_at"].isoformat(),
+                "actor": first,
+                "remote_addr": row["remote_addr"],
+            },
+            "original_detail": row["detail"],
+        }
+        session.add(
+            AuditEvent(
+                actor_name=(HISTORY_PREFIX + first["name"])[:NAME_LENGTH],
+                actor_role=HISTORY_ROLE,
+                action=row["action"],
+                object_kind=row["object_kind"],
+                object_key=row["object_key"],
+                before_hash=row["before_hash"],
+                after_hash=row["after_hash"],
+                remote_addr=None,
+                detail=canonical_json(detail).decode("utf-8"),
+            )
+        )
+        session.flush()  # one row at a time: each stamped after the one before
 
 
 def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor) -> ImportReport:
@@ -186,9 +228,13 @@ def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor)
     Every file is checked against the manifest, every table is read and compared with
     ``revisions.json``, and every revision and blade is stored through the storage
     functions, whose recomputed content hashes must equal the recorded ones. Review states,
-    supersedes / replaced-by links and creation times are reproduced; the bundle's audit
-    events are inserted as they were, followed by one event ``bundle.import`` by ``actor``.
-    A refused bundle leaves the database unchanged.
+    supersedes / replaced-by links and creation times are reproduced. The bundle's audit
+    events must agree with its content (:func:`polarsvc.bundle.read.check_history`); they
+    are imported as history after one event ``bundle.import`` by ``actor`` that names the
+    manifest hash: stamped at import time (ids keep time order), by actors
+    ``imported:<name>`` of role ``imported`` (never a local actor), the recorded id, time,
+    actor, address and detail kept in each event's detail. A refused bundle leaves the
+    database unchanged.
 
     Parameters
     ----------
@@ -213,6 +259,7 @@ def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor)
     """
     manifest, files = _read_files(Path(source))
     content = _parse_content(files)
+    check_history(content)
     report = ImportReport(
         bundle_sha256=manifest.files_sha256,
         family=manifest.family,
@@ -236,8 +283,7 @@ def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor)
                 f"the database is not empty ({held}) and differs from the bundle; a bundle is "
                 "imported into an empty database",
             )
-        _restore(session, content, actor)
-        record_event(
+        import_event = record_event(
             session,
             actor=actor,
             action=IMPORT_ACTION,
@@ -253,4 +299,6 @@ def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor)
                    if key not in ("bundle_sha256", "family", "unchanged")},
             },
         )
+        _restore(session, content, actor)
+        _add_history(session, content, manifest.files_sha256, import_event)
     return report

@@ -317,8 +317,103 @@ def _parse_audit(files: Mapping[str, bytes]) -> list[dict[str, Any]]:
             if value is not None and len(value) > limit:
                 raise where.fail(f"{label}.{name}", f"longer than {limit} characters")
         values["occurred_at"] = where.timestamp(values, "occurred_at", label)
+        identifier = values["id"]
+        if not (identifier.isascii() and identifier.isdigit()) or len(identifier) > 18:
+            raise where.fail(f"{label}.id", f"{identifier[:40]!r} is not an event id")
+        values["id"] = int(identifier)
+        try:
+            detail = json.loads(values["detail"])
+        except json.JSONDecodeError:
+            detail = None
+        if not isinstance(detail, dict):
+            raise where.fail(f"{label}.detail", "is not a JSON object")
+        values["detail"] = detail
         result.append(values)
+    if len({row["id"] for row in result}) != len(result):
+        raise BundleError(AUDIT_FILE, "an event id is listed twice")
     return result
+
+
+CREATING_ACTIONS: dict[str, str] = {
+    "family.create": "family",
+    "airfoil.create": "airfoil",
+    "polar.store": "polar_revision",
+    "blade.store": "blade_definition",
+}
+"""The event that creates each kind of bundle object (one per object, by its creator)."""
+
+
+def check_history(content: _Content) -> None:
+    """The audit history must agree with the content, or the bundle is refused.
+
+    Every family, airfoil, revision and blade has exactly one creating event
+    (:data:`CREATING_ACTIONS`) and every such event names an object of the bundle; revisions
+    and blades were created by the actor their entries record; every event about a family,
+    airfoil, revision or blade names one of the bundle's; a reviewed revision has a review
+    event.
+
+    Raises
+    ------
+    BundleError
+        Naming ``audit.csv`` and the object or row at fault.
+    """
+    objects: dict[str, dict[str, str | None]] = {
+        "family": {f["name"]: None for f in content.families},
+        "airfoil": {a["name"]: None for a in content.airfoils},
+        "polar_revision": {r.content_hash: r.created_by for r in content.revisions},
+        "blade_definition": {b["content_hash"]: b["created_by"] for b in content.blades},
+    }
+    created: dict[tuple[str, str], list[dict[str, Any]]] = {}
+    reviewed: set[str] = set()
+    for row in content.audit:
+        kind, key = row["object_kind"], row["object_key"]
+        if kind in objects and key not in objects[kind]:
+            raise BundleError(
+                AUDIT_FILE,
+                f"event {row['id']} ({row['action']}) names {kind} {key!r}, which is not in "
+                "the bundle",
+            )
+        expected_kind = CREATING_ACTIONS.get(row["action"])
+        if expected_kind is not None:
+            if kind != expected_kind:
+                raise BundleError(
+                    AUDIT_FILE, f"event {row['id']} ({row['action']}) names a {kind}"
+                )
+            created.setdefault((kind, key), []).append(row)
+        if row["action"] == "polar.review" and kind == "polar_revision":
+            reviewed.add(key)
+    for kind, members in objects.items():
+        for key, creator in members.items():
+            events = created.get((kind, key), [])
+            if len(events) != 1:
+                raise BundleError(
+                    AUDIT_FILE,
+                    f"{kind} {key!r} has {len(events)} store events, expected exactly one",
+                )
+            recorded = original_actor(events[0])["name"]
+            if creator is not None and recorded != creator:
+                raise BundleError(
+                    AUDIT_FILE,
+                    f"{kind} {key!r} is recorded as created by {creator!r} but its store "
+                    f"event {events[0]['id']} names {recorded!r}",
+                )
+    for revision in content.revisions:
+        if revision.review_state != "draft" and revision.content_hash not in reviewed:
+            raise BundleError(
+                AUDIT_FILE,
+                f"revision {revision.content_hash} is {revision.review_state} but no review "
+                "event records it",
+            )
+
+
+def original_actor(row: Mapping[str, Any]) -> dict[str, str]:
+    """The actor (name and role) of an event as it was first recorded: for history imported
+    earlier, the one kept in its detail."""
+    imported = row["detail"].get("imported") if row["actor_role"] == "imported" else None
+    if isinstance(imported, dict) and isinstance(imported.get("actor"), dict):
+        actor = imported["actor"]
+        return {"name": str(actor.get("name")), "role": str(actor.get("role"))}
+    return {"name": row["actor_name"], "role": row["actor_role"]}
 
 
 def _parse_content(files: Mapping[str, bytes]) -> _Content:

@@ -269,12 +269,22 @@ def test_round_trip_reproduces_everything(
     assert after["revisions"][source["superseding"]]["supersedes"] == (
         source["hashes"]["SKUA-210_re4e6_clean.csv"]
     )
-    # the audit rows as they were, then exactly one event recording the import
-    assert after["audit"][:-1] == before["audit"]
-    last = after["audit"][-1]
-    assert last[:5] == ("skerry-admin", "admin", IMPORT_ACTION, "bundle", report.bundle_sha256)
-    assert last[7] == "10.0.0.7"
-    assert json.loads(last[8])["revisions"] == 6
+    # one event recording the import, then the bundle's events as history (labelled
+    # imported, their recorded actor, time and detail kept in the detail)
+    first = after["audit"][0]
+    assert first[:5] == ("skerry-admin", "admin", IMPORT_ACTION, "bundle", report.bundle_sha256)
+    assert first[7] == "10.0.0.7"
+    assert json.loads(first[8])["revisions"] == 6
+    history = after["audit"][1:]
+    assert len(history) == len(before["audit"])
+    for event, original in zip(history, before["audit"], strict=True):
+        assert event[:2] == (f"imported:{original[0]}", "imported")
+        assert event[2:7] == original[2:7] and event[7] is None
+        detail = json.loads(event[8])
+        assert detail["original_detail"] == json.loads(original[8])
+        assert detail["imported"]["actor"] == {"name": original[0], "role": original[1]}
+        assert detail["imported"]["occurred_at"] == original[9].isoformat()
+        assert detail["imported"]["remote_addr"] == original[7]
     with session_scope(target_factory, write=False) as session:
         count = session.scalar(
             select(func.count()).select_from(AuditEvent).where(AuditEvent.action == IMPORT_ACTION)
