@@ -1,6 +1,7 @@
 """The ``polarsvc`` command line: a thin layer over the store, the service and the client.
 
-Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error.
+Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error,
+3 the database's schema revision is unknown to this software (:data:`EXIT_SCHEMA_MISMATCH`).
 Local commands (import, export, db, token, review, audit, lineage, verify, bundle) work on
 the database named by ``--database-url`` or ``POLARSVC_DATABASE_URL`` (default: the SQLite
 file ``./polarsvc-data/polarsvc.db``); ``fetch`` talks to a running server.
@@ -24,6 +25,8 @@ from polarsvc import __version__
 SEED_DIRS = (Path(__file__).resolve().parent.parent / "seed_polars", Path.cwd() / "seed_polars")
 """Where the demo data are looked for: beside the package (a checkout), or here."""
 DEMO_DATABASE = Path("polarsvc-data") / "demo.db"
+EXIT_SCHEMA_MISMATCH = 3
+"""Exit code when the database carries a schema revision this software does not know."""
 
 
 def _stderr(message: str) -> None:
@@ -96,6 +99,8 @@ def cmd_serve(args: argparse.Namespace) -> int:
         database_url=database_url, public_reads=public_reads, read_only=args.read_only,
         approved_only=args.approved_only or Settings.from_env().approved_only,
     )
+    if not args.demo:
+        _prepare_schema(database_url)
     if args.demo:
         secret = _prepare_demo(database_url)
         _stderr(f"demo database: {database_url} (fresh; demo data loaded, public reads on)")
@@ -104,6 +109,19 @@ def cmd_serve(args: argparse.Namespace) -> int:
             f"(API docs: http://{args.host}:{args.port}/api/v1/docs)")
     uvicorn.run(create_app(settings), host=args.host, port=args.port, log_level=args.log_level)
     return 0
+
+
+def _prepare_schema(database_url: str) -> None:
+    """Bring the schema up to date before serving, so that an unusable database is reported
+    in one line (:class:`~polarsvc.store.errors.SchemaMismatch`) instead of from inside the
+    server's start-up."""
+    from polarsvc.store.db import make_engine, upgrade_database
+
+    engine = make_engine(database_url)
+    try:
+        upgrade_database(engine)
+    finally:
+        engine.dispose()
 
 
 def _prepare_demo(database_url: str) -> str:
@@ -480,10 +498,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = parser.parse_args(argv)
     from polarsvc.aero.errors import AeroError
     from polarsvc.formats import FormatError
-    from polarsvc.store.errors import StoreError
+    from polarsvc.store.errors import SchemaMismatch, StoreError
 
     try:
         return int(args.handler(args))
+    except SchemaMismatch as exc:
+        _stderr(f"polarsvc {args.command}: {exc}")
+        return EXIT_SCHEMA_MISMATCH
     except (AeroError, FormatError, StoreError, ValueError, OSError) as exc:
         _stderr(f"polarsvc {args.command}: {exc}")
         return 1
