@@ -77,13 +77,18 @@ def is_loopback(host: str) -> bool:
 
 # -- serve ---------------------------------------------------------------------------------
 def cmd_serve(args: argparse.Namespace) -> int:
+    """Run the service. Every setting comes from its flag or else from its environment
+    variable (table in DEVELOPERS.md, "Settings")."""
     import uvicorn
 
     from polarsvc.api.app import create_app
     from polarsvc.api.settings import Settings
 
-    public_reads = args.public_reads or args.demo
-    if public_reads and not is_loopback(args.host) and not args.read_only:
+    # a command-line flag turns a setting on; otherwise the environment decides
+    environment = Settings.from_env()
+    public_reads = args.public_reads or args.demo or environment.public_reads
+    read_only = args.read_only or environment.read_only
+    if public_reads and not is_loopback(args.host) and not read_only:
         _stderr(
             f"refusing public reads with writes open on the non-loopback address {args.host}: "
             "add --read-only, or listen on 127.0.0.1"
@@ -96,8 +101,8 @@ def cmd_serve(args: argparse.Namespace) -> int:
             Path(f"{DEMO_DATABASE}{suffix}").unlink(missing_ok=True)
         database_url = f"sqlite:///{DEMO_DATABASE}"
     settings = Settings.from_env(
-        database_url=database_url, public_reads=public_reads, read_only=args.read_only,
-        approved_only=args.approved_only or Settings.from_env().approved_only,
+        database_url=database_url, public_reads=public_reads, read_only=read_only,
+        approved_only=args.approved_only or environment.approved_only,
     )
     if not args.demo:
         _prepare_schema(database_url)
@@ -199,6 +204,7 @@ def cmd_import(args: argparse.Namespace) -> int:
 
 def cmd_export(args: argparse.Namespace) -> int:
     from polarsvc.formats import polar_to_csv, polar_to_json
+    from polarsvc.names import path_inside, safe_file_stem
     from polarsvc.store import polars as polar_store
     from polarsvc.store.db import session_scope
 
@@ -214,13 +220,14 @@ def cmd_export(args: argparse.Namespace) -> int:
             provenance = polar_store.revision_provenance(revision)
             family = revision.airfoil.family.name if revision.airfoil.family else None
             extra = {"family": family} if family else None
-            stem = f"{revision.airfoil.name}_{revision.content_hash[:12]}"
+            # the file name comes from a safe form of the name; the name itself is in the file
+            stem = f"{safe_file_stem(revision.airfoil.name)}_{revision.content_hash[:12]}"
             if args.format == "json":
                 document = polar_to_json(
                     polar, airfoil=revision.airfoil.name, provenance=provenance,
                     extra_metadata=extra,
                 )
-                (destination / f"{stem}.json").write_text(
+                path_inside(destination, f"{stem}.json").write_text(
                     json.dumps(document, indent=1), encoding="utf-8"
                 )
             else:
@@ -228,7 +235,7 @@ def cmd_export(args: argparse.Namespace) -> int:
                     polar, airfoil=revision.airfoil.name, provenance=provenance,
                     extra_metadata=extra,
                 )
-                (destination / f"{stem}.csv").write_text(text, encoding="utf-8")
+                path_inside(destination, f"{stem}.csv").write_text(text, encoding="utf-8")
             written += 1
     print(f"{written} revisions written to {destination}")
     return 0

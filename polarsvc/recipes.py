@@ -41,6 +41,7 @@ import numpy as np
 
 from polarsvc import __version__, aero
 from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
+from polarsvc.aero.characteristics import LIFT_LINE_HALF_WINDOW_DEG
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
 from polarsvc.aero.extension import DEFAULT_EXTENSION_STEP_DEG, DEFAULT_TRAILING_EDGE_LIFT_FACTOR
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
@@ -50,6 +51,8 @@ RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
 
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
+MAX_BLADE_SET_STEP_DEG = LIFT_LINE_HALF_WINDOW_DEG
+"""Coarsest grid of a blade set [deg]: a window of +-5 deg then always holds two angles."""
 
 DEFAULT_FADE_DEG = (30.0, 50.0)
 """Rotational augmentation fully applied up to 30 deg, zero from 50 deg (common practice,
@@ -174,6 +177,13 @@ def _single_table(polar: aero.Polar, params: Mapping[str, Any], kind: str) -> ae
     if step is not None:
         grid = aero.uniform_grid(float(step))
         inside = grid[(grid >= polar.alpha_deg[0]) & (grid <= polar.alpha_deg[-1])]
+        if inside.size < 2:
+            raise ParameterError(
+                "step_deg",
+                f"the grid of {float(step):g} deg holds {inside.size} angle(s) within the "
+                f"table's {polar.alpha_deg[0]:g}..{polar.alpha_deg[-1]:g} deg; a table needs "
+                "at least 2: choose a finer step",
+            )
         polar = aero.resample(polar, alpha_deg=inside)
     return polar
 
@@ -306,6 +316,14 @@ def blade_set_params(
     for key in ("wind_speed_m_s", "rotor_speed_rpm"):
         if key not in operating:
             raise ParameterError(key, "is needed: the blade definition has no operating point")
+    if float(step_deg) > MAX_BLADE_SET_STEP_DEG:
+        raise ParameterError(
+            "step_deg",
+            f"a blade set needs step_deg <= {MAX_BLADE_SET_STEP_DEG:g} deg, got "
+            f"{float(step_deg):g}: the attached-flow lift line of every station is fitted to "
+            f"the angles within +-{LIFT_LINE_HALF_WINDOW_DEG:g} deg of its zero-lift angle "
+            "and needs at least two of them",
+        )
     if rotation is not None and rotation.get("model") == "none":
         rotation_block = None
     else:

@@ -15,9 +15,11 @@ from fastapi import Depends, HTTPException, Request
 from sqlalchemy.orm import Session
 
 from polarsvc.api.settings import Settings
+from polarsvc.names import find_control
 from polarsvc.store import tokens as token_store
 from polarsvc.store.audit import Actor
 from polarsvc.store.db import session_scope
+from polarsvc.store.errors import InvalidValue
 
 ROLE_RANK = {"public": 0, "reader": 1, "curator": 2, "admin": 3}
 SESSION_COOKIE = "polarsvc_session"
@@ -34,6 +36,18 @@ class Principal:
     def actor(self) -> Actor:
         """The audit trail's record of this principal."""
         return Actor(name=self.name, role=self.role, remote_addr=self.remote_addr)
+
+
+def refuse_control_characters(request: Request) -> None:
+    """Refuse (422, naming the parameter) a path or query parameter holding a control
+    character other than tab and line ends (:func:`polarsvc.names.check_text`). Applied to
+    every route, API and pages, so both databases see the same text (PostgreSQL cannot
+    store NUL)."""
+    items = [*request.path_params.items(), *request.query_params.multi_items()]
+    for name, value in items:
+        for field, text in ((name, name), (name, value)):
+            if isinstance(text, str) and (problem := find_control(text)) is not None:
+                raise InvalidValue(field, problem)
 
 
 def get_settings(request: Request) -> Settings:

@@ -29,7 +29,12 @@ from sqlalchemy import Engine, create_engine, event, make_url, text
 from sqlalchemy.engine import URL, Connection
 from sqlalchemy.orm import Session, sessionmaker
 
-from polarsvc.store.errors import BackupRefused, IntegrityProblem, SchemaMismatch
+from polarsvc.store.errors import (
+    BackupRefused,
+    IntegrityProblem,
+    InvalidValue,
+    SchemaMismatch,
+)
 
 DATABASE_URL_ENV = "POLARSVC_DATABASE_URL"
 DEFAULT_DATA_DIR = Path("polarsvc-data")
@@ -46,6 +51,7 @@ __all__ = [
     "alembic_config",
     "check_backup_destination",
     "default_database_url",
+    "is_lock_timeout",
     "make_engine",
     "make_session_factory",
     "online_backup",
@@ -101,6 +107,40 @@ def _setup_sqlite(engine: Engine) -> None:
             connection.exec_driver_sql("BEGIN")
 
 
+def _refuse_nul_text(
+    connection: Connection, cursor: Any, statement: str, parameters: Any, context: Any,
+    executemany: bool,
+) -> None:
+    """Last line of defence behind the input checks (:mod:`polarsvc.names`): a text
+    parameter holding NUL is refused on every database alike (PostgreSQL cannot store NUL,
+    SQLite would), naming the bound parameter."""
+    rows = parameters if executemany else (parameters,)
+    positions = getattr(getattr(context, "compiled", None), "positiontup", None) or ()
+    for row in rows or ():
+        pairs = row.items() if isinstance(row, dict) else enumerate(row or ())
+        for key, value in pairs:
+            if isinstance(value, str) and "\x00" in value:
+                if isinstance(key, int) and key < len(positions):
+                    key = positions[key]
+                field = str(key).rsplit("_", 1)[0] if str(key)[-1:].isdigit() else str(key)
+                raise InvalidValue(field, "contains the control character U+0000 (NUL)")
+
+
+LOCK_TIMEOUT_SQLSTATES = frozenset({"55P03", "40001", "40P01"})
+"""PostgreSQL: lock not available (lock_timeout), serialization failure, deadlock."""
+
+
+def is_lock_timeout(exc: BaseException) -> bool:
+    """Whether a database error means "another transaction held the lock too long" (SQLite
+    "database is locked" after the busy timeout; the PostgreSQL states of
+    :data:`LOCK_TIMEOUT_SQLSTATES`): nothing was written and the same request can be
+    retried."""
+    original = getattr(exc, "orig", exc)
+    if isinstance(original, sqlite3.OperationalError):
+        return "database is locked" in str(original) or "database is busy" in str(original)
+    return getattr(original, "sqlstate", None) in LOCK_TIMEOUT_SQLSTATES
+
+
 def make_engine(url: str | URL, **kwargs: Any) -> Engine:
     """An engine for ``url`` (SQLite set up as in the module docstring, PostgreSQL as given).
 
@@ -116,9 +156,11 @@ def make_engine(url: str | URL, **kwargs: Any) -> Engine:
     if parsed.get_backend_name() == "sqlite":
         engine = create_engine(parsed, **kwargs)
         _setup_sqlite(engine)
-        return engine
-    kwargs.setdefault("pool_pre_ping", True)
-    return create_engine(parsed, **kwargs)
+    else:
+        kwargs.setdefault("pool_pre_ping", True)
+        engine = create_engine(parsed, **kwargs)
+    event.listen(engine, "before_cursor_execute", _refuse_nul_text)
+    return engine
 
 
 def make_session_factory(engine: Engine) -> sessionmaker[Session]:

@@ -173,7 +173,12 @@ def test_audit_trail_records_who_what_and_from_where(demo_client, tokens):
 
 
 def test_names_and_notes_with_sql_and_html_are_kept_literally(client, tokens):
-    tricky_name = "X'); DROP TABLE airfoil;--<b>"
+    refused = client.post(
+        "/api/v1/polars", params={"airfoil": "X'); DROP TABLE airfoil;--<b>"},
+        content=b"alpha_deg,cl,cd\n0,0.1,0.01\n5,0.6,0.012\n",
+        headers={**tokens.header("curator"), "Content-Type": "text/csv"})
+    assert refused.status_code == 422 and refused.json()["field"] == "airfoil"
+    tricky_name = "X (DROP TABLE airfoil) --"  # within the name grammar (polarsvc.names)
     notes = "<script>alert(1)</script> ' OR 1=1 --"
     body = (
         f"# airfoil: {tricky_name}\n# thickness: 0.2\n# reynolds: 3e6\n"

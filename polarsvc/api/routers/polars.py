@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from starlette.concurrency import run_in_threadpool
 
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
@@ -12,7 +13,7 @@ from polarsvc.api.responses import choose_format, json_response, table_response
 from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
 from polarsvc.api.served import served_response
 from polarsvc.api.settings import Settings
-from polarsvc.ingest import store_file
+from polarsvc.ingest import store_upload
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import PolarRevision
@@ -153,12 +154,13 @@ async def upload_polar(
         }.items()
         if value is not None
     }
-    with session_scope(request.app.state.session_factory, write=True) as session:
-        outcomes = store_file(
-            session, bytes(body), actor=principal.actor(), filename=filename,
-            content_type=content_type or None, defaults=defaults,
-            max_bytes=settings.max_upload_bytes, supersedes=supersedes,
-        )
+    # parsing, hashing and the database work run in a worker thread: the event loop stays
+    # free for other requests while a large file is stored
+    outcomes = await run_in_threadpool(
+        store_upload, request.app.state.session_factory, bytes(body),
+        actor=principal.actor(), filename=filename, content_type=content_type or None,
+        defaults=defaults, max_bytes=settings.max_upload_bytes, supersedes=supersedes,
+    )
     created = any(o.created for o in outcomes)
     return json_response(
         {"stored": [o.as_dict() for o in outcomes]}, status_code=201 if created else 200
