@@ -1,6 +1,6 @@
 """`polarsvc serve` honours every setting it can read from the environment, one test per
 setting, and documents them all in one table (DEVELOPERS.md, "Settings"). The server is
-built by the command itself (uvicorn.run is replaced by a catcher of the application); one
+built by the command itself (uvicorn's Server.run is replaced by a catcher of the application); one
 test starts a real server process."""
 
 from __future__ import annotations
@@ -23,24 +23,26 @@ SETTING_VARIABLES = ("POLARSVC_DATABASE_URL", "POLARSVC_PUBLIC_READS", "POLARSVC
 
 
 @pytest.fixture
-def serve(monkeypatch, prepared_db):
-    """Run ``polarsvc serve ARGS`` with the environment given; return (exit code, app)."""
+def serve(monkeypatch, prepared_db, tmp_path):
+    """Run ``polarsvc serve ARGS --port 0`` in a scratch folder with the environment given;
+    return (exit code, the application it would have served)."""
     import uvicorn
 
     for name in SETTING_VARIABLES:
         monkeypatch.delenv(name, raising=False)
     monkeypatch.setenv("POLARSVC_DATABASE_URL", prepared_db[0])
+    monkeypatch.chdir(tmp_path)
     caught = {}
 
-    def run(app, **kwargs):
-        caught["app"], caught["kwargs"] = app, kwargs
+    def run(server, sockets=None):
+        caught["app"] = server.config.app
 
-    monkeypatch.setattr(uvicorn, "run", run)
+    monkeypatch.setattr(uvicorn.Server, "run", run)
 
     def start(*args: str, **env: str):
         for name, value in env.items():
             monkeypatch.setenv(name, value)
-        code = cli.main(["serve", *args])
+        code = cli.main(["serve", *args, "--port", "0"])
         return code, caught.get("app")
 
     return start
@@ -51,13 +53,12 @@ def upload(client, headers, body=CSV):
                        headers={**headers, "Content-Type": "text/csv"})
 
 
-def test_database_url(serve, tokens, prepared_db, tmp_path, monkeypatch):
-    monkeypatch.chdir(tmp_path)
+def test_database_url(serve, tokens, prepared_db, tmp_path):
     code, app = serve()
     assert code == 0 and app.state.settings.database_url == prepared_db[0]
     with TestClient(app) as client:  # the tokens live in that database only
         assert client.get("/api/v1/families", headers=tokens.header("reader")).status_code == 200
-    assert not (tmp_path / "polarsvc-data").exists()
+    assert not (tmp_path / "polarsvc-data" / "polarsvc.db").exists()
 
 
 def test_public_reads(serve):

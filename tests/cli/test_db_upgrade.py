@@ -41,15 +41,18 @@ def stored_revision(url: str) -> str:
 def test_db_upgrade_on_an_unknown_revision_says_so_in_one_line(future_database, capsys):
     code = main(["--database-url", future_database, "db", "upgrade"])
     err = capsys.readouterr().err
-    assert code == EXIT_SCHEMA_MISMATCH == 3
+    assert code == EXIT_SCHEMA_MISMATCH == 4
     assert len(err.strip().splitlines()) == 1, err
     assert FUTURE in err and known_head() in err and "Traceback" not in err
     assert stored_revision(future_database) == FUTURE
 
 
-def test_other_commands_and_serve_refuse_the_same_way(future_database, capsys):
+def test_other_commands_and_serve_refuse_the_same_way(
+    future_database, capsys, tmp_path, monkeypatch
+):
+    monkeypatch.chdir(tmp_path)
     assert main(["--database-url", future_database, "token", "list"]) == EXIT_SCHEMA_MISMATCH
-    assert main(["--database-url", future_database, "serve", "--port", "1"]) == 3
+    assert main(["--database-url", future_database, "serve", "--port", "0"]) == 4
     err = capsys.readouterr().err
     assert err.count(FUTURE) == 2 and "Traceback" not in err
 
