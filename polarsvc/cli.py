@@ -128,7 +128,7 @@ def cmd_serve(args: argparse.Namespace) -> int:
     from polarsvc.serving import CannotServe, bind_listener, write_serving_record
 
     # a command-line flag turns a setting on; otherwise the environment decides
-    environment = Settings.from_env()
+    environment = Settings.from_env(database_url="")
     public_reads = args.public_reads or args.demo or environment.public_reads
     read_only = args.read_only or environment.read_only
     if public_reads and not is_loopback(args.host) and not read_only:

@@ -82,11 +82,14 @@ class Settings:
             A variable holds a value its setting cannot take.
         """
         values: dict[str, object] = {
-            "database_url": os.environ.get("POLARSVC_DATABASE_URL") or default_database_url(),
             "public_reads": _env_flag("POLARSVC_PUBLIC_READS", False),
             "approved_only": _env_flag("POLARSVC_APPROVED_ONLY", False),
             "read_only": _env_flag("POLARSVC_READ_ONLY", False),
             "max_upload_bytes": _env_int("POLARSVC_MAX_UPLOAD_BYTES", 5_000_000, minimum=1),
         }
         values.update(overrides)
+        if "database_url" not in values:  # (the default creates the data folder)
+            values["database_url"] = (
+                os.environ.get("POLARSVC_DATABASE_URL") or default_database_url()
+            )
         return cls(**values)  # type: ignore[arg-type]
