@@ -64,8 +64,28 @@ RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
 
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
-MAX_BLADE_SET_STEP_DEG = LIFT_LINE_HALF_WINDOW_DEG
-"""Coarsest grid of a blade set [deg]: a window of +-5 deg then always holds two angles."""
+MAX_FAMILY_STEP_DEG = LIFT_LINE_HALF_WINDOW_DEG
+"""Coarsest grid of a blade set or blend [deg]: a window of +-5 deg then always holds two
+angles."""
+
+
+def check_family_step(step_deg: float, what: str) -> None:
+    """Refuse a grid too coarse for the attached-flow lift line fitted on a prepared family
+    (blade sets and blends).
+
+    Raises
+    ------
+    ParameterError
+        Naming ``step_deg``.
+    """
+    if float(step_deg) > MAX_FAMILY_STEP_DEG:
+        raise ParameterError(
+            "step_deg",
+            f"{what} needs step_deg <= {MAX_FAMILY_STEP_DEG:g} deg, got {float(step_deg):g}: "
+            f"the attached-flow lift line is fitted to the angles within "
+            f"+-{LIFT_LINE_HALF_WINDOW_DEG:g} deg of the zero-lift angle and needs at least "
+            "two of them",
+        )
 
 DYNAMIC_STALL_COLUMNS = ("f_separation", "cl_fs")
 """Stations x angles arrays of the dynamic-stall inputs served with every blade set."""
@@ -360,14 +380,7 @@ def blade_set_params(
     for key in ("wind_speed_m_s", "rotor_speed_rpm"):
         if key not in operating:
             raise ParameterError(key, "is needed: the blade definition has no operating point")
-    if float(step_deg) > MAX_BLADE_SET_STEP_DEG:
-        raise ParameterError(
-            "step_deg",
-            f"a blade set needs step_deg <= {MAX_BLADE_SET_STEP_DEG:g} deg, got "
-            f"{float(step_deg):g}: the attached-flow lift line of every station is fitted to "
-            f"the angles within +-{LIFT_LINE_HALF_WINDOW_DEG:g} deg of its zero-lift angle "
-            "and needs at least two of them",
-        )
+    check_family_step(step_deg, "a blade set")
     if rotation is not None and rotation.get("model") == "none":
         rotation_block = None
     else:
@@ -520,6 +533,7 @@ def blend_params(
     """Parameters of a family-blend recipe, defaults written out."""
     if thickness_method not in aero.THICKNESS_METHODS:
         raise UnknownMethodError("thickness_method", thickness_method, aero.THICKNESS_METHODS)
+    check_family_step(step_deg, "a blend")
     return {
         "thickness": float(thickness),
         "reynolds": float(reynolds),

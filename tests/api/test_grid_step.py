@@ -1,6 +1,6 @@
 """Coarse angle grids: a step too coarse for the attached-flow lift line (which needs two
 points within +-5 deg of the zero-lift angle, see polarsvc.aero.characteristics) is refused
-with a 422 naming ``step_deg``; single tables and blends
+for blade sets and blends with a 422 naming ``step_deg``; single tables and blends
 answer a coarse grid or refuse it naming ``step_deg``, never with a 500."""
 
 from __future__ import annotations
