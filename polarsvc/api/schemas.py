@@ -21,6 +21,8 @@ from pydantic import (
     model_validator,
 )
 
+from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
+
 
 def number(**bounds: float) -> object:
     """A strict JSON number (float or integer, never a boolean or a string), finite, within
@@ -38,18 +40,13 @@ Number = number()
 PositiveNumber = number(gt=0)
 FiniteNumber = number()
 
-_EDGE = r"[^\x00-\x20\x7f-\xa0\u1680\u2000-\u200a\u2028\u2029\u202f\u205f\u3000\ufeff]"
-NAME_PATTERN = rf"^{_EDGE}(?:[^\x00-\x1f\x7f-\x9f]*{_EDGE})?$"
-"""A name: no control characters, no white space at either end (by the definitions of both
-Python's ``str.strip`` and JSON Schema's ECMA-262 ``\\s``, which differ)."""
-
 Name = Annotated[
     str,
-    Field(min_length=1, max_length=200, pattern=NAME_PATTERN,
-          description="a name: no control characters, no white space at either end"),
+    Field(min_length=1, max_length=NAME_MAX_LENGTH, pattern=NAME_PATTERN,
+          description="a name: ASCII letters and digits, space and . _ - + ( ); first a "
+          "letter or digit, no space at the end (polarsvc.names)"),
 ]
-"""The name of a family, airfoil, blade or token as the request schema states it (the store
-checks it again, see :func:`polarsvc.store._lookup.check_name`)."""
+FreeText = Annotated[str, Field(max_length=4000, pattern=TEXT_PATTERN)]
 
 HASH_KEY_PATTERN = r"^[0-9a-fA-F]{8,64}$"
 HashKey = Annotated[
@@ -68,7 +65,7 @@ class ReviewChange(StrictModel):
     """A review decision on a polar revision."""
 
     state: Literal["approved", "deprecated"]
-    reason: Annotated[str, Field(max_length=4000)] | None = None
+    reason: FreeText | None = None
     replaced_by: Annotated[str, Field(pattern=HASH_KEY_PATTERN)] | None = None
 
 
@@ -76,7 +73,7 @@ class FamilyIn(StrictModel):
     """A new airfoil family."""
 
     name: Name
-    description: Annotated[str, Field(max_length=4000)] = ""
+    description: FreeText = ""
 
 
 class CoordinatesIn(StrictModel):
@@ -94,7 +91,7 @@ class AirfoilIn(StrictModel):
         description="relative thickness t/c as a fraction (0.21, not 21)"
     )
     family: Name | None = None
-    description: Annotated[str, Field(max_length=4000)] = ""
+    description: FreeText = ""
     coordinates: CoordinatesIn | None = None
 
 
@@ -190,6 +187,8 @@ ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
     404: {"model": ErrorOut, "description": "no such airfoil, family, revision, blade or table"},
     409: {"model": ErrorOut, "description": "conflict: ambiguous hash prefix, review transition"},
     422: {"model": ErrorOut, "description": "invalid input (line, field or parameter named)"},
+    503: {"model": ErrorOut, "description": "the database stayed busy with other writes past "
+          "its lock timeout; nothing was changed; retry after Retry-After seconds"},
 }
 """Error answers every resource may give, documented once for all routers."""
 

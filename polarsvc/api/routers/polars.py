@@ -6,12 +6,13 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from pydantic import AfterValidator, WithJsonSchema
+from starlette.concurrency import run_in_threadpool
 
 from polarsvc import aero, pipeline, recipes
 from polarsvc.aero.extension import EXTENSION_METHODS
 from polarsvc.aero.polar import SURFACE_CONDITIONS
 from polarsvc.aero.rotation import ROTATION_MODELS
-from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import FORMATS, choose_format, json_response, table_response
 from polarsvc.api.schemas import (
     ERROR_RESPONSES,
@@ -22,8 +23,9 @@ from polarsvc.api.schemas import (
 )
 from polarsvc.api.served import cache_policy, served_response
 from polarsvc.api.settings import Settings
+from polarsvc.api.visibility import shown_name
 from polarsvc.formats.metadata import ANGLE_UNITS
-from polarsvc.ingest import store_file
+from polarsvc.ingest import store_upload
 from polarsvc.provenance import SOURCE_KINDS
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
@@ -60,8 +62,8 @@ ApprovedOnlyQuery = Annotated[
 ]
 
 
-def revision_summary(revision: PolarRevision) -> dict[str, Any]:
-    """The public form of a revision without its table."""
+def revision_summary(revision: PolarRevision, principal: Principal) -> dict[str, Any]:
+    """The public form of a revision without its table (``created_by`` for admins only)."""
     return {
         "content_hash": revision.content_hash,
         "airfoil": revision.airfoil.name,
@@ -85,7 +87,7 @@ def revision_summary(revision: PolarRevision) -> dict[str, Any]:
             "replaced_by": revision.replaced_by.content_hash if revision.replaced_by else None,
         },
         "created_at": revision.created_at.isoformat(),
-        "created_by": revision.created_by,
+        "created_by": shown_name(principal, revision.created_by),
     }
 
 
@@ -97,7 +99,7 @@ def approved_only_setting(settings: Settings, explicit: bool | None) -> bool:
 @router.get("/polars", summary="List revisions")
 def list_polars(
     session: ReadSession,
-    _: Reader,
+    principal: Reader,
     airfoil: Annotated[str | None, Query(max_length=200)] = None,
     family: Annotated[str | None, Query(max_length=200)] = None,
     surface: Surface | None = None,
@@ -108,7 +110,7 @@ def list_polars(
         session, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
         review_state=review_state,
     )
-    return json_response([revision_summary(r) for r in rows])
+    return json_response([revision_summary(r, principal) for r in rows])
 
 
 @router.post(
@@ -177,12 +179,13 @@ async def upload_polar(
         }.items()
         if value is not None
     }
-    with session_scope(request.app.state.session_factory, write=True) as session:
-        outcomes = store_file(
-            session, bytes(body), actor=principal.actor(), filename=filename,
-            content_type=content_type or None, defaults=defaults,
-            max_bytes=settings.max_upload_bytes, supersedes=supersedes,
-        )
+    # parsing, hashing and the database work run in a worker thread: the event loop stays
+    # free for other requests while a large file is stored
+    outcomes = await run_in_threadpool(
+        store_upload, request.app.state.session_factory, bytes(body),
+        actor=principal.actor(), filename=filename, content_type=content_type or None,
+        defaults=defaults, max_bytes=settings.max_upload_bytes, supersedes=supersedes,
+    )
     created = any(o.created for o in outcomes)
     return json_response(
         {"stored": [o.as_dict() for o in outcomes]}, status_code=201 if created else 200
@@ -190,13 +193,13 @@ async def upload_polar(
 
 
 @router.get("/polars/{content_hash}", summary="A revision: metadata, provenance and table")
-def get_polar(content_hash: HashKey, session: ReadSession, _: Reader):
+def get_polar(content_hash: HashKey, session: ReadSession, principal: Reader):
     revision = polar_store.get_revision(session, content_hash)
     polar = polar_store.load_polar(revision)
     table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
     if polar.cm is not None:
         table["cm"] = polar.cm
-    return json_response({**revision_summary(revision), "table": table})
+    return json_response({**revision_summary(revision, principal), "table": table})
 
 
 @router.get(
@@ -399,7 +402,7 @@ def review_polar(content_hash: HashKey, change: ReviewChange, request: Request, 
             session, content_hash=content_hash, state=change.state, reason=change.reason,
             replaced_by_hash=change.replaced_by, actor=principal.actor(),
         )
-        return json_response(revision_summary(revision))
+        return json_response(revision_summary(revision, principal))
 
 
 @router.get(
