@@ -21,6 +21,7 @@ from pydantic import (
     model_validator,
 )
 
+from polarsvc.formats.binary import ARROW_MEDIA_TYPE, NPZ_MEDIA_TYPE
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
 
 
@@ -195,12 +196,13 @@ ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
 TABLE_RESPONSES: dict[int | str, dict[str, object]] = {
     200: {
         "description": "the table: JSON (default), CSV (`format=csv` or `Accept: text/csv`) "
-        "or the binary form (`format=bin` or `Accept: application/vnd.polarsvc.table`)",
+        "or a binary form: Arrow IPC stream (`format=bin` or `format=arrow`), numpy npz "
+        "(`format=npz`, also where pyarrow is absent)",
         "content": {
             "application/json": {},
             "text/csv": {"schema": {"type": "string"}},
-            "application/vnd.polarsvc.table": {"schema": {"type": "string",
-                                                          "format": "binary"}},
+            ARROW_MEDIA_TYPE: {"schema": {"type": "string", "format": "binary"}},
+            NPZ_MEDIA_TYPE: {"schema": {"type": "string", "format": "binary"}},
         },
     },
 }

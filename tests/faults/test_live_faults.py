@@ -259,7 +259,6 @@ def test_online_backup_while_a_server_writes(prepared, tmp_path):
     assert uploads.acknowledged <= live["hashes"]
 
 
-@pytest.mark.xfail(reason="pending: backup refuses the live database file", strict=False)
 def test_backup_onto_the_live_file_is_refused_and_harms_nothing(prepared, tmp_path):
     database_url, tokens = prepared
     if not database_url.startswith("sqlite"):
