@@ -23,7 +23,7 @@ from pathlib import Path
 import httpx
 import pytest
 
-from tests.live_server import start_server
+from tests.serverproc import start_server
 
 pytest.importorskip("schemathesis")
 
@@ -38,7 +38,7 @@ def _schemathesis() -> list[str]:
 
 
 def test_every_operation_passes_every_check(database_url, tmp_path):
-    server = start_server(tmp_path, database_url, "--demo")
+    server = start_server(["--database-url", database_url, "--demo"], cwd=tmp_path, timeout_s=120)
     try:
         headers = {"Authorization": f"Bearer {server.token}"}
         revision = httpx.get(f"{server.base}/api/v1/polars", params={"airfoil": "SKUA-250"},

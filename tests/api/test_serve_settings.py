@@ -19,7 +19,8 @@ from tests.serverproc import running_server
 REPO = Path(__file__).resolve().parents[2]
 CSV = (SEED_DIR / "skua" / "SKUA-210_re4e6_clean.csv").read_bytes()
 SETTING_VARIABLES = ("POLARSVC_DATABASE_URL", "POLARSVC_PUBLIC_READS", "POLARSVC_READ_ONLY",
-                     "POLARSVC_APPROVED_ONLY", "POLARSVC_MAX_UPLOAD_BYTES")
+                     "POLARSVC_APPROVED_ONLY", "POLARSVC_MAX_UPLOAD_BYTES",
+                     "POLARSVC_READER_CACHE_BUDGET_BYTES")
 
 
 @pytest.fixture
@@ -106,6 +107,12 @@ def test_max_upload_bytes(serve, tokens):
         assert upload(client, tokens.header("curator")).status_code == 413
 
 
+def test_reader_cache_budget_bytes(serve):
+    """The behaviour under the budget is checked in tests/api/test_storage_policy.py."""
+    code, app = serve(POLARSVC_READER_CACHE_BUDGET_BYTES="0")
+    assert code == 0 and app.state.settings.reader_cache_budget_bytes == 0
+
+
 def test_flags_still_win_over_an_unset_environment(serve, tokens):
     code, app = serve("--read-only", "--public-reads", "--approved-only")
     settings = app.state.settings
@@ -116,7 +123,7 @@ def test_flags_still_win_over_an_unset_environment(serve, tokens):
     ("variable", "value"),
     [("POLARSVC_READ_ONLY", "maybe"), ("POLARSVC_PUBLIC_READS", "2"),
      ("POLARSVC_APPROVED_ONLY", "yes please"), ("POLARSVC_MAX_UPLOAD_BYTES", "5MB"),
-     ("POLARSVC_MAX_UPLOAD_BYTES", "0")],
+     ("POLARSVC_MAX_UPLOAD_BYTES", "0"), ("POLARSVC_READER_CACHE_BUDGET_BYTES", "1GB")],
 )
 def test_a_bad_value_is_refused_naming_the_variable(serve, capsys, variable, value):
     code, app = serve(**{variable: value})

@@ -27,7 +27,7 @@ from polarsvc.store import polars as polar_store
 from polarsvc.store.db import make_engine, make_session_factory, session_scope, upgrade_database
 from polarsvc.store.models import AuditEvent, PolarRevision
 from tests.api.conftest import Tokens, make_tokens
-from tests.live_server import ServerProcess, polarsvc_command, start_server
+from tests.serverproc import Server, polarsvc_command, start_server
 
 THREADS = 4
 UPLOADS_PER_THREAD = 25
@@ -118,11 +118,12 @@ def check_store(database_url: str) -> dict[str, int]:
         engine.dispose()
 
 
-def _servers(tmp_path: Path, database_url: str, count: int) -> list[ServerProcess]:
+def _servers(tmp_path: Path, database_url: str, count: int) -> list[Server]:
     servers = []
     try:
         for index in range(count):
-            servers.append(start_server(tmp_path, database_url, name=f"server{index}"))
+            servers.append(start_server(["--database-url", database_url], cwd=tmp_path,
+                                        name=f"server{index}"))
     except Exception:
         for server in servers:
             server.stop()
@@ -155,7 +156,7 @@ def test_two_servers_on_one_database_store_every_acknowledged_upload(prepared, t
 
 def test_kill_9_during_uploads_loses_no_acknowledged_upload(prepared, tmp_path):
     database_url, tokens = prepared
-    server = start_server(tmp_path, database_url)
+    server = start_server(["--database-url", database_url], cwd=tmp_path)
     uploads = Uploads(tokens)
     stop = threading.Event()
     try:
@@ -177,7 +178,7 @@ def test_kill_9_during_uploads_loses_no_acknowledged_upload(prepared, tmp_path):
     # beyond the acknowledged: at most the uploads in flight when the server died
     assert len(counts["hashes"] - uploads.acknowledged) <= THREADS
     # the server starts again on the same database and takes uploads
-    again = start_server(tmp_path, database_url, name="restarted")
+    again = start_server(["--database-url", database_url], cwd=tmp_path, name="restarted")
     try:
         uploads.run([again.base], 5000, 3)
     finally:
@@ -230,7 +231,7 @@ def test_online_backup_while_a_server_writes(prepared, tmp_path):
     database_url, tokens = prepared
     if not database_url.startswith("sqlite"):
         pytest.skip("db backup copies a SQLite file; PostgreSQL has its own tools")
-    server = start_server(tmp_path, database_url)
+    server = start_server(["--database-url", database_url], cwd=tmp_path)
     uploads = Uploads(tokens)
     stop = threading.Event()
     destination = tmp_path / "backup.db"
@@ -263,7 +264,7 @@ def test_backup_onto_the_live_file_is_refused_and_harms_nothing(prepared, tmp_pa
     database_url, tokens = prepared
     if not database_url.startswith("sqlite"):
         pytest.skip("db backup copies a SQLite file")
-    server = start_server(tmp_path, database_url)
+    server = start_server(["--database-url", database_url], cwd=tmp_path)
     uploads = Uploads(tokens)
     try:
         uploads.run([server.base], 0, 10)
