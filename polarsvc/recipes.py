@@ -94,7 +94,27 @@ GRID_STEPS_DEG: tuple[float, ...] = tuple(
     k / 1000 for k in range(20, 10_001) if 360_000 % k == 0
 )
 """Angle steps a served table may use [deg]: every step from 0.02 to 10 deg (at most three
-decimals) that divides -180..180 into whole steps, as the grid requires."""
+decimals) that divides -180..180 into whole steps, as the grid requires (blade sets and
+blends: up to :data:`MAX_FAMILY_STEP_DEG`)."""
+
+
+def grid_step(step_deg: float) -> float:
+    """The angle step of a served table, canonicalised and checked against
+    :data:`GRID_STEPS_DEG`.
+
+    Raises
+    ------
+    ParameterError
+        Naming ``step_deg``.
+    """
+    value = canonical_parameter("step_deg", step_deg)
+    if value not in GRID_STEPS_DEG:
+        raise ParameterError(
+            "step_deg",
+            f"{value:g} deg does not divide -180..180 deg into whole steps between 0.02 and "
+            "10 deg with at most three decimals (e.g. 0.1, 0.25, 0.5, 1, 2.5, 5)",
+        )
+    return value
 
 DYNAMIC_STALL_COLUMNS = ("f_separation", "cl_fs")
 """Stations x angles arrays of the dynamic-stall inputs served with every blade set."""
@@ -501,7 +521,7 @@ def blade_set_params(
         "extension": extension_block,
         "broadside_drag": broadside,
         "rotation": rotation_block,
-        "step_deg": _float("step_deg", step_deg),
+        "step_deg": grid_step(step_deg),
         "operating_point": {
             "wind_speed_m_s": _float("wind_speed_m_s", operating["wind_speed_m_s"]),
             "rotor_speed_rpm": _float("rotor_speed_rpm", operating["rotor_speed_rpm"]),
@@ -638,7 +658,7 @@ def blend_params(
         "thickness_method": thickness_method,
         "clamp": bool(clamp),
         "extension": extension_params(**dict(extension or {})),
-        "step_deg": _float("step_deg", step_deg),
+        "step_deg": grid_step(step_deg),
     }
 
 
@@ -662,7 +682,7 @@ def revision_table_params(
         if rotation is None:
             raise ParameterError("rotation", "is required for an augmented table")
         params["rotation"] = rotation_params(**dict(rotation))
-    params["step_deg"] = _float("step_deg", step_deg)
+    params["step_deg"] = grid_step(step_deg)
     return params
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Query, Request
+from pydantic import WithJsonSchema
 
 from polarsvc import pipeline, recipes
 from polarsvc.aero.interpolation import THICKNESS_METHODS
@@ -16,7 +17,6 @@ from polarsvc.api.routers.polars import (
     ExtensionQuery,
     FadeQuery,
     FormatQuery,
-    GridStep,
     Surface,
     approved_only_setting,
 )
@@ -29,6 +29,15 @@ from polarsvc.store.models import BladeDefinition
 
 ThicknessMethod = Literal[THICKNESS_METHODS]  # type: ignore[valid-type]
 BladeRotationModel = Literal[(*ROTATION_MODELS, "none")]  # type: ignore[valid-type]
+
+FamilyGridStep = Annotated[
+    float,
+    WithJsonSchema({"type": "number", "enum": [
+        step for step in recipes.GRID_STEPS_DEG if step <= recipes.MAX_FAMILY_STEP_DEG
+    ]}),
+    Query(description="angle step of the table [deg]; one that divides 360 deg, at most "
+                      f"{recipes.MAX_FAMILY_STEP_DEG:g} deg"),
+]
 
 router = APIRouter(tags=["blades and blends"], responses=ERROR_RESPONSES)
 
@@ -106,7 +115,7 @@ def blade_tables(
     clamp: bool = False,
     wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
     rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
-    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    step_deg: FamilyGridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
@@ -141,7 +150,7 @@ def family_blend(
     surface: Surface = "clean",
     thickness_method: ThicknessMethod = "linear",
     clamp: bool = False,
-    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    step_deg: FamilyGridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
-from pydantic import AfterValidator, WithJsonSchema
+from pydantic import WithJsonSchema
 from starlette.concurrency import run_in_threadpool
 
 from polarsvc import aero, pipeline, recipes
@@ -228,18 +228,8 @@ def get_polar_table(
     )
 
 
-def _grid_step(value: float) -> float:
-    if value not in recipes.GRID_STEPS_DEG:
-        raise ValueError(
-            "must divide -180..180 deg into whole steps, between 0.02 and 10 deg with at most "
-            "three decimals (e.g. 0.1, 0.25, 0.5, 1, 2.5, 5)"
-        )
-    return value
-
-
 GridStep = Annotated[
     float,
-    AfterValidator(_grid_step),
     WithJsonSchema({"type": "number", "enum": list(recipes.GRID_STEPS_DEG)}),
     Query(description="angle step of the table [deg]; one that divides 360 deg"),
 ]
