@@ -101,6 +101,7 @@ def query_events(
     object_key: str | None = None,
     actor: str | None = None,
     limit: int = DEFAULT_QUERY_LIMIT,
+    after_id: int | None = None,
 ) -> Sequence[AuditEvent]:
     """Audit events in the order they were recorded (oldest first).
 
@@ -114,6 +115,9 @@ def query_events(
         Only events by this actor name.
     limit : int
         At most this many events, 1..10000.
+    after_id : int, optional
+        Only events recorded after the one with this id (keyset pagination: pass the id
+        of the last event of the previous page).
 
     Raises
     ------
@@ -131,5 +135,7 @@ def query_events(
         statement = statement.where(AuditEvent.object_key == object_key)
     if actor is not None:
         statement = statement.where(AuditEvent.actor_name == actor)
+    if after_id is not None:
+        statement = statement.where(AuditEvent.id > int(after_id))
     statement = statement.order_by(AuditEvent.id).limit(limit)
     return session.scalars(statement).all()

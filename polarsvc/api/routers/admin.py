@@ -8,12 +8,13 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Query, Request
 
 from polarsvc.api.deps import Admin, Reader, ReadSession
-from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES, TokenIn
+from polarsvc.api.responses import json_response, page_response
+from polarsvc.api.schemas import ERROR_RESPONSES, AfterQuery, TokenIn
 from polarsvc.store import audit as audit_store
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken, AuditEvent
+from polarsvc.store.paging import decode_cursor, encode_cursor
 
 router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
 
@@ -75,6 +76,7 @@ def revoke_token(name: str, request: Request, principal: Admin):
 
 @router.get("/audit", summary="The audit trail, oldest first (filter by time, object, actor)")
 def audit_trail(
+    request: Request,
     session: ReadSession,
     _: Reader,
     since: dt.datetime | None = None,
@@ -82,13 +84,21 @@ def audit_trail(
     object: Annotated[str | None, Query(max_length=200)] = None,
     actor: Annotated[str | None, Query(max_length=200)] = None,
     limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
+    after: AfterQuery = None,
 ):
+    """At most ``limit`` events per page; follow the ``Link: <...>; rel="next"`` header
+    (present while a page is full) for the following events."""
     for name, value in (("since", since), ("until", until)):
         if value is not None and value.tzinfo is None:
             from fastapi import HTTPException
 
             raise HTTPException(422, detail=f"{name} must carry a time zone (e.g. ...Z)")
+    after_id = decode_cursor(after, (int,))[0] if after is not None else None
     events = audit_store.query_events(
-        session, since=since, until=until, object_key=object, actor=actor, limit=limit
+        session, since=since, until=until, object_key=object, actor=actor, limit=limit,
+        after_id=after_id,
     )
-    return json_response([event_summary(e) for e in events])
+    cursor = encode_cursor([events[-1].id]) if len(events) == limit else None
+    return page_response(
+        request, [event_summary(e) for e in events], next_cursor=cursor, total=None
+    )
