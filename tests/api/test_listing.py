@@ -45,8 +45,9 @@ def test_filters_and_counts_agree_with_a_python_filter(demo_client, tokens):
                    {"airfoil": "SKUA-250"}, {"source_kind": "synthetic"}):
         items, _, total = walk(demo_client, "/api/v1/polars", reader, limit=4, **params)
         def keep(item, params=params):
+            surface = item["conditions"]["surface"]
             return (
-                item["conditions"]["surface"] == params.get("surface", item["conditions"]["surface"])
+                surface == params.get("surface", surface)
                 and item["family"] == params.get("family", item["family"])
                 and item["airfoil"] == params.get("airfoil", item["airfoil"])
                 and item["conditions"]["reynolds"] == params.get(
