@@ -27,6 +27,7 @@ import orjson
 from fastapi import Request
 from fastapi.responses import Response
 
+from polarsvc.describe import csv_comments
 from polarsvc.formats import table_to_csv
 from polarsvc.lru import LruCache
 
@@ -211,11 +212,7 @@ def table_response(
         body = _binary_body(entries, data, meta)
         return Response(body, media_type=BINARY_MEDIA_TYPE, headers=headers)
     if fmt == "csv":
-        comments = {
-            key: (str(value).lower() if isinstance(value, bool) else value)
-            for key, value in meta.items()
-            if isinstance(value, str | int | float)
-        }
+        comments = csv_comments(meta)
         body = encode_csv(
             alpha_deg, columns, comments=comments, stations_radius_m=stations_radius_m
         )

@@ -17,7 +17,7 @@ from polarsvc.api.routers.polars import (
     approved_only_setting,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
-from polarsvc.api.served import served_response
+from polarsvc.api.served import PACKAGE_FORMAT, package_response, served_response
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
@@ -74,7 +74,10 @@ def get_blade(key: str, session: ReadSession, _: Reader):
         "Extends every family member to -180..180 deg, interpolates to each station's "
         "Reynolds number (from the operating point, no induction) and thickness, and applies "
         "rotational augmentation. JSON arrays cl, cd, cm have one row per station; the CSV "
-        "form is long (station radius, alpha_deg, coefficients)."
+        "form is long (station radius, alpha_deg, coefficients). Every form states the "
+        "operating point and, per station, radius, chord, twist, t/c and Reynolds number "
+        "(`describes`; CSV comment lines). `format=zip` answers with the station package: "
+        "one CSV per station plus manifest.json (layout in the README)."
     ),
 )
 def blade_tables(
@@ -91,7 +94,7 @@ def blade_tables(
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
-    fmt = choose_format(request, format)
+    fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
     options = {
         "surface": surface,
         "thickness_method": thickness_method,
@@ -106,6 +109,8 @@ def blade_tables(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
     )
+    if fmt == PACKAGE_FORMAT:
+        return package_response(request, served)
     return served_response(request, served, fmt)
 
 
