@@ -6,6 +6,8 @@ Example::
     with PolarClient("http://127.0.0.1:8000", token="psv_...") as client:
         blade = client.blade_set("skerry-48")
         cl = blade.cl            # (n_stations, n_angles)
+        f = blade.f_separation   # dynamic-stall inputs, (n_stations, n_angles)
+        onset = [s["stall_onset_deg"] for s in blade.dynamic_stall]
         print(blade.content_hash, blade.recipe_hash)
 
 Exception tree::
@@ -27,8 +29,15 @@ import httpx
 import numpy as np
 
 from polarsvc.aero import Polar
-from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
 from polarsvc.describe import section_conditions
+from polarsvc.formats.binary import (
+    ARROW_AVAILABLE,
+    ARROW_MEDIA_TYPE,
+    NPZ_MEDIA_TYPE,
+    BinaryTable,
+    decode_arrow,
+    decode_npz,
+)
 from polarsvc.package import StationPackage, read_station_package
 
 __all__ = [
@@ -73,13 +82,27 @@ class RequestRefused(ServiceError):
 @dataclass(frozen=True)
 class DerivedTable:
     """A table from the service: angles [deg], coefficient arrays (1-D for one section, or
-    stations x angles for a blade set) and the metadata (recipe, hashes, reports)."""
+    stations x angles for a blade set) and the metadata (recipe, hashes, reports).
+
+    Blade sets also carry the dynamic-stall inputs: ``f_separation`` (Kirchhoff separation
+    function) and ``cl_fs`` (fully separated lift), stations x angles, and per station
+    :attr:`dynamic_stall` (zero-lift angle, attached lift slope, stall onset)."""
 
     alpha_deg: np.ndarray
     cl: np.ndarray
     cd: np.ndarray
     cm: np.ndarray | None
     meta: dict[str, Any] = field(default_factory=dict)
+    f_separation: np.ndarray | None = None
+    cl_fs: np.ndarray | None = None
+
+    @property
+    def dynamic_stall(self) -> list[dict[str, Any]]:
+        """Per station: ``alpha0_deg``, ``cl_alpha_per_rad``, ``stall_onset_deg`` and
+        ``stall_onset_neg_deg`` (None for a station without lift); empty for a single
+        section."""
+        stations = (self.meta.get("reports") or {}).get("stations") or []
+        return [dict(s["dynamic_stall"]) for s in stations if "dynamic_stall" in s]
 
     @property
     def content_hash(self) -> str:
@@ -118,14 +141,26 @@ def _raise_for(response: httpx.Response) -> None:
     raise ServiceError(response.status_code, detail)
 
 
-def _table_from_binary(payload: bytes) -> DerivedTable:
-    arrays, meta = decode_binary(payload)
+def _table_from_binary(payload: bytes, media_type: str) -> DerivedTable:
+    """Decode an Arrow IPC stream or an .npz archive, by the answer's media type."""
+    decoded: BinaryTable
+    if media_type.startswith(ARROW_MEDIA_TYPE):
+        decoded = decode_arrow(payload)
+    elif media_type.startswith(NPZ_MEDIA_TYPE):
+        decoded = decode_npz(payload)
+    else:
+        raise ClientError(f"unexpected table media type {media_type!r}")
+    meta = dict(decoded.meta)
+    if decoded.radius_m is not None:
+        meta.setdefault("radius_m", decoded.radius_m.tolist())
     return DerivedTable(
-        alpha_deg=arrays["alpha_deg"],
-        cl=arrays["cl"],
-        cd=arrays["cd"],
-        cm=arrays.get("cm"),
+        alpha_deg=decoded.alpha_deg,
+        cl=decoded.columns["cl"],
+        cd=decoded.columns["cd"],
+        cm=decoded.columns.get("cm"),
         meta=meta,
+        f_separation=decoded.columns.get("f_separation"),
+        cl_fs=decoded.columns.get("cl_fs"),
     )
 
 
@@ -177,11 +212,15 @@ class PolarClient:
         return response.json()
 
     def _get_table(self, path: str, **params: Any) -> DerivedTable:
+        # Arrow IPC when pyarrow is installed here (the server falls back to .npz when it
+        # lacks pyarrow), else .npz
+        fmt = "bin" if ARROW_AVAILABLE else "npz"
+        accept = f"{ARROW_MEDIA_TYPE}, {NPZ_MEDIA_TYPE}" if ARROW_AVAILABLE else NPZ_MEDIA_TYPE
         response = self._http.get(
-            path, params=_clean({**params, "format": "bin"}), headers={"Accept": BINARY_MEDIA_TYPE}
+            path, params=_clean({**params, "format": fmt}), headers={"Accept": accept}
         )
         _raise_for(response)
-        return _table_from_binary(response.content)
+        return _table_from_binary(response.content, response.headers.get("content-type", ""))
 
     # -- catalogue -------------------------------------------------------------------------
     def families(self) -> list[dict[str, Any]]:

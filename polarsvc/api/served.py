@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import hashlib
 import re
+from typing import Any
 
 from fastapi import Request
 from fastapi.responses import Response
@@ -40,6 +41,7 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
         meta=served.meta(),
         stations_radius_m=radii,
         extra_headers=headers,
+        extra_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
     )
 
 
@@ -62,3 +64,16 @@ def package_response(request: Request, served: ServedTable) -> Response:
         return Response(status_code=304, headers=headers)
     body = build_station_package(served.alpha_deg, served.columns, meta)
     return Response(body, media_type=PACKAGE_MEDIA_TYPE, headers=headers)
+def dynamic_stall_comments(stations: list[dict[str, Any]] | None) -> dict[str, str]:
+    """One CSV comment per station with its dynamic-stall values (zero-lift angle, attached
+    lift slope, stall onset); the arrays f_separation and cl_fs are columns."""
+    comments = {}
+    for report in stations or []:
+        values = report.get("dynamic_stall")
+        if values is None:
+            continue
+        text = " ".join(f"{key}={value}" for key, value in values.items())
+        comments[f"dynamic_stall_station_{report['station']}"] = (
+            f"radius_m={report['radius_m']} {text}"
+        )
+    return comments
