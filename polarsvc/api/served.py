@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import hashlib
 import re
-from typing import Any
 
 from fastapi import Request
 from fastapi.responses import Response
 
+from polarsvc import recipes
 from polarsvc.api.responses import dumps, etag_for, etag_matches, table_response
 from polarsvc.package import MEDIA_TYPE as PACKAGE_MEDIA_TYPE
 from polarsvc.package import build_station_package
@@ -41,7 +41,7 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
         meta=served.meta(),
         stations_radius_m=radii,
         extra_headers=headers,
-        extra_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
+        extra_comments=recipes.dynamic_stall_comments(stations) if fmt == "csv" else None,
     )
 
 
@@ -64,16 +64,3 @@ def package_response(request: Request, served: ServedTable) -> Response:
         return Response(status_code=304, headers=headers)
     body = build_station_package(served.alpha_deg, served.columns, meta)
     return Response(body, media_type=PACKAGE_MEDIA_TYPE, headers=headers)
-def dynamic_stall_comments(stations: list[dict[str, Any]] | None) -> dict[str, str]:
-    """One CSV comment per station with its dynamic-stall values (zero-lift angle, attached
-    lift slope, stall onset); the arrays f_separation and cl_fs are columns."""
-    comments = {}
-    for report in stations or []:
-        values = report.get("dynamic_stall")
-        if values is None:
-            continue
-        text = " ".join(f"{key}={value}" for key, value in values.items())
-        comments[f"dynamic_stall_station_{report['station']}"] = (
-            f"radius_m={report['radius_m']} {text}"
-        )
-    return comments
