@@ -9,7 +9,7 @@ from __future__ import annotations
 import datetime as dt
 from typing import Annotated, Literal
 
-from fastapi import Path
+from fastapi import Path, Query
 from pydantic import (
     AwareDatetime,
     BaseModel,
@@ -23,6 +23,18 @@ from pydantic import (
 
 from polarsvc.formats.binary import ARROW_MEDIA_TYPE, NPZ_MEDIA_TYPE
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
+from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
+
+LimitQuery = Annotated[
+    int,
+    Query(ge=1, le=MAX_PAGE_SIZE, description="items per page (keyset pagination; the "
+          "Link header names the next page, X-Total-Count the matching items)"),
+]
+AfterQuery = Annotated[
+    str | None,
+    Query(max_length=1000, description="cursor of the next page, as given in the Link header"),
+]
+PAGE_SIZE = DEFAULT_PAGE_SIZE
 
 
 def number(**bounds: float) -> object:

@@ -12,11 +12,12 @@ from pydantic import WithJsonSchema
 from polarsvc.aero.errors import ParameterError
 from polarsvc.api import visibility
 from polarsvc.api.deps import Admin, Reader, ReadSession
-from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES, TokenIn
+from polarsvc.api.responses import json_response, page_response
+from polarsvc.api.schemas import ERROR_RESPONSES, AfterQuery, TokenIn
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken
+from polarsvc.store.paging import decode_cursor, encode_cursor
 
 router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
 
@@ -113,6 +114,7 @@ def revoke_token(name: str, request: Request, principal: Admin):
     "client addresses are shown to admins only",
 )
 def audit_trail(
+    request: Request,
     session: ReadSession,
     principal: Reader,
     since: Moment | None = None,
@@ -120,14 +122,20 @@ def audit_trail(
     object: Annotated[str | None, Query(max_length=200)] = None,
     actor: Annotated[str | None, Query(max_length=200, description="token name (admins)")] = None,
     limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
+    after: AfterQuery = None,
 ):
     """Each event names its actor's role; the actor's token name and the client address are
-    shown to admins only (None for others), and token-management events to admins only."""
+    shown to admins only (None for others), and token-management events to admins only.
+    At most ``limit`` events per page; follow the ``Link: <...>; rel="next"`` header
+    (present while a page is full) for the following events."""
+    after_id = decode_cursor(after, (int,))[0] if after is not None else None
     try:
         events = visibility.audit_trail(
             session, principal, since=parse_moment("since", since),
-            until=parse_moment("until", until), object_key=object, actor=actor, limit=limit,
+            until=parse_moment("until", until), object_key=object, actor=actor,
+            limit=limit, after_id=after_id,
         )
     except visibility.ActorFilterRefused as exc:
         raise HTTPException(403, detail=str(exc)) from None
-    return json_response(events)
+    cursor = encode_cursor([events[-1]["id"]]) if len(events) == limit else None
+    return page_response(request, events, next_cursor=cursor, total=None)

@@ -11,7 +11,7 @@ from polarsvc import pipeline, recipes
 from polarsvc.aero.interpolation import THICKNESS_METHODS
 from polarsvc.aero.rotation import ROTATION_MODELS
 from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
-from polarsvc.api.responses import choose_format, json_response
+from polarsvc.api.responses import choose_format, json_response, page_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
     ExtensionQuery,
@@ -20,8 +20,16 @@ from polarsvc.api.routers.polars import (
     Surface,
     approved_only_setting,
 )
-from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, TABLE_RESPONSES, BladeIn
-from polarsvc.api.served import cache_policy, served_response
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    IDENTICAL_EXISTS,
+    PAGE_SIZE,
+    TABLE_RESPONSES,
+    AfterQuery,
+    BladeIn,
+    LimitQuery,
+)
+from polarsvc.api.served import PACKAGE_FORMAT, cache_policy, package_response, served_response
 from polarsvc.api.visibility import shown_name
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
@@ -61,9 +69,18 @@ def blade_summary(
     return summary
 
 
-@router.get("/blades", summary="List blade definitions (every revision)")
-def list_blades(session: ReadSession, principal: Reader):
-    return json_response([blade_summary(b, principal) for b in blade_store.list_blades(session)])
+@router.get("/blades", summary="List blade definitions (every revision; one page)")
+def list_blades(
+    request: Request, session: ReadSession, principal: Reader,
+    limit: LimitQuery = PAGE_SIZE, after: AfterQuery = None,
+):
+    """Blade revisions by name, then storage order. Follow the ``Link`` header for the next
+    page."""
+    page = blade_store.page_blades(session, after=after, limit=limit)
+    return page_response(
+        request, [blade_summary(b, principal) for b in page.items],
+        next_cursor=page.next_cursor, total=page.total,
+    )
 
 
 @router.post(
@@ -101,7 +118,10 @@ def get_blade(key: str, session: ReadSession, principal: Reader):
         "(Kirchhoff separation function) and cl_fs (fully separated lift), have one row per "
         "station; per-station alpha0, lift slope and stall onset are in "
         "reports.stations[i].dynamic_stall. The CSV form is long (station radius, alpha_deg, "
-        "coefficients)."
+        "coefficients). Every form states the operating point and, per station, radius, "
+        "chord, twist, t/c and Reynolds number (`describes`; CSV comment lines). "
+        "`format=zip` answers with the station package: one CSV per station plus "
+        "manifest.json (layout in the README)."
     ),
 )
 def blade_tables(
@@ -119,7 +139,7 @@ def blade_tables(
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
-    fmt = choose_format(request, format)
+    fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
     options = {
         "surface": surface,
         "thickness_method": thickness_method,
@@ -135,6 +155,8 @@ def blade_tables(
         approved_only=approved_only_setting(settings, approved_only),
         policy=cache_policy(settings, reader),
     )
+    if fmt == PACKAGE_FORMAT:
+        return package_response(request, served)
     return served_response(request, served, fmt)
 
 
