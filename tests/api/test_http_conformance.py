@@ -98,6 +98,8 @@ def test_enumerated_parameters_declare_their_values():
                 assert values is not None, f"{where}: no enum"
                 if name == "format" and path.endswith("/lineage"):
                     assert values == {"json", "text"}, where
+                elif name == "format" and path.endswith("/blades/{key}/tables"):
+                    assert values == {*ENUMERATED["format"], "zip"}, where
                 else:
                     assert values == ENUMERATED[name], where
                 seen.add(name)

@@ -11,7 +11,7 @@ from polarsvc import pipeline, recipes
 from polarsvc.aero.interpolation import THICKNESS_METHODS
 from polarsvc.aero.rotation import ROTATION_MODELS
 from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
-from polarsvc.api.responses import choose_format, json_response, page_response
+from polarsvc.api.responses import FORMATS, choose_format, json_response, page_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
     ExtensionQuery,
@@ -37,6 +37,21 @@ from polarsvc.store.models import BladeDefinition
 
 ThicknessMethod = Literal[THICKNESS_METHODS]  # type: ignore[valid-type]
 BladeRotationModel = Literal[(*ROTATION_MODELS, "none")]  # type: ignore[valid-type]
+
+BladeFormatQuery = Annotated[
+    Literal[(*FORMATS, PACKAGE_FORMAT)] | None,  # type: ignore[valid-type]
+    Query(description="json, csv, bin, arrow, npz, or zip (one CSV file per station and a "
+                      "manifest); else the Accept header decides"),
+]
+BLADE_TABLE_RESPONSES = {
+    200: {
+        **TABLE_RESPONSES[200],
+        "content": {
+            **TABLE_RESPONSES[200]["content"],  # type: ignore[dict-item]
+            "application/zip": {"schema": {"type": "string", "format": "binary"}},
+        },
+    },
+}
 
 FamilyGridStep = Annotated[
     float,
@@ -107,7 +122,7 @@ def get_blade(key: str, session: ReadSession, principal: Reader):
 
 @router.get(
     "/blades/{key}/tables",
-    responses=TABLE_RESPONSES,
+    responses=BLADE_TABLE_RESPONSES,
     summary="The full set of station tables of a blade (stations x angles)",
     description=(
         "Extends every family member to -180..180 deg (broadside drag from the blade's own "
@@ -136,7 +151,7 @@ def blade_tables(
     wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
     rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
     step_deg: FamilyGridStep = recipes.DEFAULT_STEP_DEG,
-    format: FormatQuery = None,
+    format: BladeFormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
