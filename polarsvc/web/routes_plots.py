@@ -200,7 +200,7 @@ def add_routes(router: APIRouter) -> None:
     def blade_augmentation_svg(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        view = blade_data(request, session, name)
+        view = blade_data(request, session, name, viewer)
         series, colours = view.augmentation_series(_span(request))
         body = plots.polar_plots_svg(
             series, kind=_kind(kind),  # type: ignore[arg-type]
@@ -214,7 +214,7 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _kind(kind)
-        series, _ = blade_data(request, session, name).augmentation_series(_span(request))
+        series, _ = blade_data(request, session, name, viewer).augmentation_series(_span(request))
         return csv_response(plots.series_csv(series), download_name(name, "augmentation", kind))
 
     @router.get("/plots/blades/{name}/dynamic-stall.csv")
@@ -223,7 +223,7 @@ def add_routes(router: APIRouter) -> None:
     ) -> Response:
         """The dynamic-stall arrays of the blade set (long layout by station radius), with
         each station's zero-lift angle, lift slope and stall onset as comments."""
-        view = blade_data(request, session, name)
+        view = blade_data(request, session, name, viewer)
         if view.tables is None:
             raise PageError(404, f"blade {name!r} has no station tables: {view.problems}")
         columns = {key: view.tables.columns[key] for key in recipes.DYNAMIC_STALL_COLUMNS
