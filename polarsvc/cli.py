@@ -162,9 +162,13 @@ def cmd_import(args: argparse.Namespace) -> int:
         _stderr("no table files found")
         return 1
     factory = _factory(args)
+    if args.create_families:
+        _create_stated_families(factory, files, defaults)
     counts = {"stored": 0, "identical": 0, "refused": 0}
     for index, report in enumerate(
-        import_files(factory, files, actor=_local_actor(), defaults=defaults), start=1
+        import_files(factory, files, actor=_local_actor(), defaults=defaults,
+                     override_quality=args.override_quality),
+        start=1,
     ):
         counts[report.status] += 1
         detail = (
@@ -172,11 +176,69 @@ def cmd_import(args: argparse.Namespace) -> int:
             else f"{report.stored} stored, {report.identical} identical"
         )
         print(f"[{index}/{len(files)}] {report.path}: {report.status} ({detail})", flush=True)
+        for flag in report.flags:
+            print(f"    {format_flag(flag)}", flush=True)
     _stderr(
         f"{len(files)} files: {counts['stored']} stored, {counts['identical']} identical, "
         f"{counts['refused']} refused"
     )
     return 1 if counts["refused"] else 0
+
+
+def format_flag(flag: dict[str, Any]) -> str:
+    """One quality flag as a line of text: level, code, place and message."""
+    where = ", ".join(
+        part for part in (
+            f"line {flag['line']}" if flag.get("line") is not None else "",
+            f"field {flag['field']}" if flag.get("field") else "",
+        ) if part
+    )
+    return f"{flag['level']} {flag['code']}" + (f" ({where})" if where else "") + \
+        f": {flag['message']}"
+
+
+def _create_stated_families(factory: Any, files: Sequence[Path], defaults: dict) -> None:
+    """Create the families the files (or ``--family``) name, before importing them."""
+    from polarsvc.formats import FormatError, parse_polar_file
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    names = set()
+    for path in files:
+        try:
+            parsed = parse_polar_file(path.read_bytes(), filename=path.name, defaults=defaults)
+        except (FormatError, OSError):
+            continue  # the import itself reports the problem
+        names.update(p.family for p in parsed if p.family)
+    with session_scope(factory, write=True) as session:
+        for name in sorted(names):
+            _, created = airfoil_store.get_or_create_family(
+                session, name=name, actor=_local_actor()
+            )
+            if created:
+                _stderr(f"family {name!r} created")
+
+
+def cmd_family(args: argparse.Namespace) -> int:
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=args.action != "list") as session:
+        if args.action == "create":
+            airfoil_store.create_family(
+                session, name=args.name, description=args.description or "",
+                actor=_local_actor(),
+            )
+            print(f"family {args.name!r} created")
+        else:
+            for family in airfoil_store.list_families(session):
+                members = ", ".join(
+                    f"{a.name} ({a.thickness:g}{', retired' if a.retired else ''})"
+                    for a in sorted(family.airfoils, key=lambda a: a.thickness)
+                )
+                print(f"{family.name}\t{members}")
+    return 0
 
 
 def cmd_export(args: argparse.Namespace) -> int:
@@ -314,10 +376,29 @@ def cmd_audit(args: argparse.Namespace) -> int:
             print(
                 f"{event.occurred_at.isoformat()}\t{event.actor_name} ({event.actor_role})\t"
                 f"{event.action}\t{event.object_kind}:{event.object_key}\t"
-                f"{event.before_hash or '-'} -> {event.after_hash or '-'}\t"
-                f"{event.remote_addr or '-'}"
+                f"{audit_change(event)}\t{event.remote_addr or '-'}"
             )
     return 0
+
+
+def audit_change(event: Any) -> str:
+    """What an audit event changed, as text: a state change with its reason (reviews,
+    corrections: ``from -> to``), else the hashes before and after."""
+    detail = json.loads(event.detail or "{}")
+    if "from" in detail and "to" in detail:
+        text = f"{_shown(detail['from'])} -> {_shown(detail['to'])}"
+    else:
+        text = f"{event.before_hash or '-'} -> {event.after_hash or '-'}"
+    for key in ("reason", "replaced_by", "override"):
+        if detail.get(key):
+            text += f" ({key}: {detail[key]})"
+    return text
+
+
+def _shown(value: Any) -> str:
+    if isinstance(value, dict):
+        return ", ".join(f"{k}={v}" for k, v in value.items())
+    return "-" if value is None else str(value)
 
 
 def cmd_lineage(args: argparse.Namespace) -> int:
@@ -398,7 +479,21 @@ def build_parser() -> argparse.ArgumentParser:
     for option in METADATA_OPTIONS:
         importer.add_argument("--" + option.replace("_", "-"), dest=option,
                               help=f"{option} where a file does not state it")
+    importer.add_argument("--create-families", action="store_true",
+                          help="create the families the files name (otherwise a file naming "
+                          "a family that does not exist is refused)")
+    importer.add_argument("--override-quality", metavar="REASON",
+                          help="store files despite error-level quality flags; the reason is "
+                          "kept with each revision and in the audit trail")
     importer.set_defaults(handler=cmd_import)
+
+    family = commands.add_parser("family", help="create or list airfoil families")
+    family_commands = family.add_subparsers(dest="action", required=True)
+    family_create = family_commands.add_parser("create")
+    family_create.add_argument("name")
+    family_create.add_argument("--description")
+    family_create.set_defaults(handler=cmd_family)
+    family_commands.add_parser("list").set_defaults(handler=cmd_family)
 
     exporter = commands.add_parser("export", help="write stored revisions to files")
     exporter.add_argument("destination")

@@ -63,6 +63,7 @@ class InputSummary:
     surface: str
     review_state: str
     replaced_by: str | None = None
+    flags: tuple[dict[str, Any], ...] = ()
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -73,6 +74,9 @@ class InputSummary:
             "surface": self.surface,
             "review_state": self.review_state,
             "replaced_by": self.replaced_by,
+            "quality_flags": [
+                {k: f.get(k) for k in ("code", "level", "message")} for f in self.flags
+            ],
         }
 
 
@@ -96,6 +100,20 @@ class ServedTable:
     def deprecated_inputs(self) -> list[str]:
         return [i.content_hash for i in self.inputs if i.review_state == "deprecated"]
 
+    @property
+    def flagged_inputs(self) -> list[dict[str, Any]]:
+        """Inputs carrying quality flags: revision, airfoil, flag codes, and the worst level."""
+        return [
+            {
+                "revision": i.content_hash,
+                "airfoil": i.airfoil,
+                "flags": [f["code"] for f in i.flags],
+                "level": "error" if any(f["level"] == "error" for f in i.flags) else "warning",
+            }
+            for i in self.inputs
+            if i.flags
+        ]
+
     def meta(self) -> dict[str, Any]:
         """The metadata every derived response carries (JSON-able)."""
         meta: dict[str, Any] = {
@@ -106,6 +124,7 @@ class ServedTable:
             "inputs": [i.as_dict() for i in self.inputs],
             "draws_on_deprecated": bool(self.deprecated_inputs),
             "deprecated_inputs": self.deprecated_inputs,
+            "flagged_inputs": self.flagged_inputs,
             "reports": self.reports,
             "conventions": {
                 "alpha": "deg",
@@ -129,6 +148,7 @@ def _summary(revision: PolarRevision) -> InputSummary:
         surface=revision.surface,
         review_state=revision.review_state,
         replaced_by=revision.replaced_by.content_hash if revision.replaced_by else None,
+        flags=tuple(polar_store.revision_flags(revision)),
     )
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import json
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -10,9 +11,11 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from polarsvc.aero.polar import Polar
+from polarsvc.aero.quality import table_flags
 from polarsvc.hashing import (
     PROVENANCE_FIELDS,
     canonical_array_bytes,
+    canonical_json,
     decode_array_bytes,
     polar_content_hash,
 )
@@ -85,7 +88,11 @@ def store_polar(
     polar: Polar,
     provenance: Mapping[str, Any],
     supersedes_hash: str | None = None,
+    quality_flags: Sequence[Mapping[str, Any]] | None = None,
+    quality_override: str | None = None,
     actor: Actor,
+    audit_action: str = "polar.store",
+    audit_detail: Mapping[str, Any] | None = None,
 ) -> tuple[PolarRevision, bool]:
     """Store a polar as a new draft revision, or return the identical stored one.
 
@@ -99,8 +106,17 @@ def store_polar(
         See :func:`normalise_provenance`.
     supersedes_hash : str, optional
         Full hash or unique prefix of the revision this one supersedes (same airfoil).
+    quality_flags : sequence of mappings, optional
+        The flags found at upload (:mod:`polarsvc.aero.quality`, as dicts, with the file
+        line where known); None computes the flags of the table alone. Stored with the
+        revision; nothing is refused here (the upload path refuses error-level flags).
+    quality_override : str, optional
+        Why a curator stored the table despite error-level flags (kept with the revision and
+        in the audit event).
     actor : Actor
         Recorded in the audit trail (one event when a revision is created, none otherwise).
+    audit_action, audit_detail
+        The action name of that event and extra detail (a correction records its own).
 
     Returns
     -------
@@ -142,6 +158,9 @@ def store_polar(
     existing = _by_full_hash(session, content_hash)
     if existing is not None:
         return existing, False
+    if quality_flags is None:
+        quality_flags = [f.as_dict() for f in table_flags(polar)]
+    flags = [dict(f) for f in quality_flags]
     revision = PolarRevision(
         content_hash=content_hash,
         airfoil=airfoil,
@@ -157,6 +176,8 @@ def store_polar(
         supersedes_id=None if superseded is None else superseded.id,
         review_state="draft",
         created_by=actor.name,
+        quality_flags=canonical_json(flags).decode("utf-8"),
+        quality_override=quality_override,
         **fields,
     )
     # the same content may be committed by a concurrent transaction (unique content_hash)
@@ -168,9 +189,10 @@ def store_polar(
     record_event(
         session,
         actor=actor,
-        action="polar.store",
+        action=audit_action,
         object_kind="polar_revision",
         object_key=content_hash,
+        before_hash=None if superseded is None else superseded.content_hash,
         after_hash=content_hash,
         detail={
             "airfoil": airfoil_name,
@@ -179,9 +201,23 @@ def store_polar(
             "surface": polar.surface,
             "rows": polar.size,
             "supersedes": None if superseded is None else superseded.content_hash,
+            "quality": {
+                "errors": [f["code"] for f in flags if f.get("level") == "error"],
+                "warnings": [f["code"] for f in flags if f.get("level") == "warning"],
+                "override": quality_override,
+            },
+            **dict(audit_detail or {}),
         },
     )
     return revision, True
+
+
+def revision_flags(revision: PolarRevision) -> list[dict[str, Any]]:
+    """The quality flags of a revision: as stored at upload, or (for revisions stored
+    before flags existed) computed from its table alone."""
+    if revision.quality_flags is not None:
+        return list(json.loads(revision.quality_flags))
+    return [f.as_dict() for f in table_flags(load_polar(revision))]
 
 
 def _by_full_hash(session: Session, content_hash: str) -> PolarRevision | None:

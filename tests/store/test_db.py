@@ -35,13 +35,18 @@ TABLES = {
     "derived_table",
     "family",
     "polar_revision",
+    "airfoil_alias",
 }
 
 
 def test_migrations_create_the_schema(engine: Engine) -> None:
     assert set(inspect(engine).get_table_names()) == TABLES
     with engine.connect() as connection:
-        assert connection.scalar(text("SELECT version_num FROM alembic_version")) == "0001"
+        from alembic.script import ScriptDirectory
+
+        head = ScriptDirectory.from_config(db.alembic_config(connection)).get_current_head()
+        assert head is not None and head != "0001"  # the chain grows past the initial schema
+        assert connection.scalar(text("SELECT version_num FROM alembic_version")) == head
 
 
 def test_migrated_schema_matches_the_models(engine: Engine) -> None:

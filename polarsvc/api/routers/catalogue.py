@@ -98,7 +98,7 @@ def get_airfoil(name: str, request: Request, session: ReadSession, _: Reader):
     airfoil = airfoil_store.get_airfoil(session, name)
     from polarsvc.api.routers.polars import revision_summary
 
-    revisions = polar_store.list_revisions(session, airfoil=name)
+    revisions = polar_store.list_revisions(session, airfoil=airfoil.name)
     return json_response(
         {
             **airfoil_summary(airfoil),
