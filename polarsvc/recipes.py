@@ -217,12 +217,16 @@ def prepared_family(
     recipe: Mapping[str, Any],
     load_revision: Callable[[str], aero.Polar],
     family_cache: FamilyCache | None = None,
+    airfoils: Mapping[str, str] | None = None,
 ) -> aero.PreparedFamily:
     """The recipe's family members extended and resampled once
     (:func:`polarsvc.aero.prepare_family`), through ``family_cache`` when given: the same
-    members and extension settings serve every blade and blend."""
+    members and extension settings serve every blade and blend. ``airfoils`` (airfoil name
+    by revision hash) groups the members by airfoil."""
     hashes = list(recipe["inputs"]["revisions"])
     keywords = _prepare_keywords(recipe["params"])
+    if airfoils is not None:
+        keywords["airfoils"] = [airfoils[h] for h in hashes]
 
     def make() -> aero.PreparedFamily:
         return aero.prepare_family([load_revision(h) for h in hashes], **keywords)
@@ -375,6 +379,7 @@ def execute_recipe(
     load_revision: Callable[[str], aero.Polar],
     load_blade: Callable[[str], Mapping[str, Any]] | None = None,
     family_cache: FamilyCache | None = None,
+    airfoils: Mapping[str, str] | None = None,
 ) -> DerivedResult:
     """Compute the table a recipe describes.
 
@@ -389,6 +394,9 @@ def execute_recipe(
     family_cache : callable, optional
         Reuses prepared families across recipes (see :func:`prepared_family`); without it
         everything is computed afresh (as verification does).
+    airfoils : mapping, optional
+        Airfoil name by revision hash: family members are then grouped by airfoil (each
+        airfoil's Reynolds interpolation uses its own tables) and errors name the airfoil.
     """
     if recipe.get("schema") != RECIPE_SCHEMA:
         raise ParameterError("schema", f"unknown recipe schema {recipe.get('schema')!r}")
@@ -401,7 +409,7 @@ def execute_recipe(
         if len(hashes) != 1:
             raise ParameterError("inputs", f"a {kind} table takes one revision, got {len(hashes)}")
         return _result_from_polar(_single_table(load_revision(hashes[0]), params, kind))
-    family = prepared_family(recipe, load_revision, family_cache)
+    family = prepared_family(recipe, load_revision, family_cache, airfoils)
     if kind == "blended":
         return blend_family(family, params)
     if load_blade is None:

@@ -12,7 +12,7 @@ def plausible_rows(lift_offset: float = 0.0) -> str:
     (keep it within +-0.05 so the table stays plausible) to make distinct contents."""
     polar = kirchhoff_polar(low=-10.0, high=16.0, step=2.0, with_cm=False)
     rows = "".join(
-        f"{a!r},{cl + lift_offset!r},{cd!r}\n"
+        f"{float(a)!r},{float(cl + lift_offset)!r},{float(cd)!r}\n"
         for a, cl, cd in zip(polar.alpha_deg, polar.cl, polar.cd, strict=True)
     )
     return "alpha_deg,cl,cd\n" + rows
