@@ -429,9 +429,59 @@ def cmd_review(args: argparse.Namespace) -> int:
     with session_scope(factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=args.revision, state=state, reason=args.reason,
-            replaced_by_hash=args.replaced_by, actor=_local_actor(),
+            replaced_by_hash=args.replaced_by,
+            replacement_reason=getattr(args, "replacement_reason", None),
+            actor=_local_actor(),
         )
         print(f"{revision.content_hash}: {revision.review_state}")
+    return 0
+
+
+PROVENANCE_OPTIONS = ("source_kind", "reference", "facility", "measured_on", "contributor",
+                      "notes")
+
+
+def cmd_correct(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    changes = {k: getattr(args, k) for k in PROVENANCE_OPTIONS if getattr(args, k) is not None}
+    with session_scope(_factory(args), write=True) as session:
+        revision = curation.correct_provenance(
+            session, content_hash=args.revision, changes=changes, reason=args.reason,
+            actor=_local_actor(),
+        )
+        print(f"{revision.content_hash}: supersedes {revision.supersedes.content_hash}")
+    return 0
+
+
+def cmd_airfoil(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    actor = _local_actor()
+    with session_scope(_factory(args), write=True) as session:
+        if args.action == "move":
+            airfoil = curation.move_airfoil(
+                session, name=args.name, family=None if args.family == "-" else args.family,
+                reason=args.reason, actor=actor,
+            )
+            where = airfoil.family.name if airfoil.family else "no family"
+            print(f"airfoil {airfoil.name!r} moved to {where}")
+        elif args.action == "rename":
+            airfoil = curation.rename_airfoil(
+                session, name=args.name, new_name=args.new_name, reason=args.reason,
+                actor=actor,
+            )
+            print(f"airfoil {args.name!r} renamed {airfoil.name!r} (the old name still "
+                  "resolves)")
+        else:
+            airfoil = curation.set_retired(
+                session, name=args.name, retired=args.action == "retire", reason=args.reason,
+                actor=actor,
+            )
+            state = "retired from blends" if airfoil.retired else "reinstated"
+            print(f"airfoil {airfoil.name!r} {state}")
     return 0
 
 
@@ -615,8 +665,37 @@ def build_parser() -> argparse.ArgumentParser:
     deprecate = review_commands.add_parser("deprecate")
     deprecate.add_argument("revision")
     deprecate.add_argument("--reason", required=True)
-    deprecate.add_argument("--replaced-by")
+    deprecate.add_argument("--replaced-by",
+                           help="the revision replacing this one (same airfoil, Reynolds "
+                           "number, Mach number and surface, unless --replacement-reason)")
+    deprecate.add_argument("--replacement-reason",
+                           help="why a replacement at other conditions is right")
     deprecate.set_defaults(handler=cmd_review)
+    correct = review_commands.add_parser(
+        "correct", help="fix provenance fields by a new revision that supersedes this one")
+    correct.add_argument("revision")
+    correct.add_argument("--reason", required=True)
+    for option in PROVENANCE_OPTIONS:
+        correct.add_argument("--" + option.replace("_", "-"), dest=option,
+                             help=f"corrected {option}")
+    correct.set_defaults(handler=cmd_correct)
+
+    airfoil = commands.add_parser(
+        "airfoil", help="corrections: move, rename, retire from blends, reinstate")
+    airfoil_commands = airfoil.add_subparsers(dest="action", required=True)
+    move = airfoil_commands.add_parser("move", help="move to another family ('-': none)")
+    move.add_argument("name")
+    move.add_argument("family")
+    rename = airfoil_commands.add_parser("rename", help="rename; the old name stays an alias")
+    rename.add_argument("name")
+    rename.add_argument("new_name")
+    retire = airfoil_commands.add_parser("retire", help="leave family blends and blade sets")
+    retire.add_argument("name")
+    reinstate = airfoil_commands.add_parser("reinstate", help="undo a retirement")
+    reinstate.add_argument("name")
+    for command in (move, rename, retire, reinstate):
+        command.add_argument("--reason", required=True)
+        command.set_defaults(handler=cmd_airfoil)
 
     audit = commands.add_parser("audit", help="query the audit trail")
     audit.add_argument("--since", type=_aware_datetime, help="ISO time (UTC if no zone)")

@@ -270,14 +270,22 @@ def load_polar(revision: PolarRevision) -> Polar:
 
 def verify_revision(revision: PolarRevision) -> str:
     """Recompute a stored revision's content hash; return it, or raise
-    :class:`IntegrityProblem` if it differs from the stored one."""
+    :class:`IntegrityProblem` if it differs from the stored one.
+
+    The hash holds the airfoil name the revision was stored under: the current name, or
+    after a rename one of the airfoil's former names (aliases)."""
     supersedes = revision.supersedes.content_hash if revision.supersedes is not None else None
-    recomputed = polar_content_hash(
-        load_polar(revision),
-        airfoil_name=revision.airfoil.name,
-        provenance=revision_provenance(revision),
-        supersedes_hash=supersedes,
-    )
+    polar = load_polar(revision)
+    names = [revision.airfoil.name, *(a.name for a in revision.airfoil.aliases)]
+    for name in names:
+        recomputed = polar_content_hash(
+            polar,
+            airfoil_name=name,
+            provenance=revision_provenance(revision),
+            supersedes_hash=supersedes,
+        )
+        if recomputed == revision.content_hash:
+            break
     if recomputed != revision.content_hash:
         raise IntegrityProblem(
             f"revision {revision.content_hash}: content now hashes to {recomputed}"
@@ -308,6 +316,10 @@ def list_revisions(
     then storage order. ``reynolds`` matches exactly."""
     statement = select(PolarRevision).join(Airfoil)
     if airfoil is not None:
+        try:
+            airfoil = get_airfoil(session, airfoil).name  # a former name resolves too
+        except NotFound:
+            return []
         statement = statement.where(Airfoil.name == airfoil)
     if family is not None:
         statement = statement.join(Family, Airfoil.family_id == Family.id).where(
@@ -333,6 +345,7 @@ def set_review_state(
     state: str,
     reason: str | None = None,
     replaced_by_hash: str | None = None,
+    replacement_reason: str | None = None,
     actor: Actor,
 ) -> PolarRevision:
     """Move a revision through review: draft -> approved, draft/approved -> deprecated.
@@ -346,7 +359,11 @@ def set_review_state(
     reason : str, optional
         Why; required (non-blank) for deprecation.
     replaced_by_hash : str, optional
-        Only with deprecation: the revision that replaces this one.
+        Only with deprecation: the revision that replaces this one. It must hold the same
+        conditions (airfoil, Reynolds number, Mach number, surface), unless
+        ``replacement_reason`` says why another one replaces it.
+    replacement_reason : str, optional
+        Why a replacement at other conditions is right (recorded in the audit event).
 
     Raises
     ------
@@ -375,6 +392,14 @@ def set_review_state(
             raise NotFound("polar revision (replacement)", replaced_by_hash) from None
         if replacement.id == revision.id:
             raise InvalidTransition(key, current, state, "a revision cannot replace itself")
+        differences = _condition_differences(revision, replacement)
+        if differences and not (replacement_reason and replacement_reason.strip()):
+            raise InvalidTransition(
+                key, current, state,
+                f"replacement {replacement.content_hash[:12]} differs in "
+                f"{'; '.join(differences)}; name a revision of the same conditions or say "
+                "why in replacement_reason",
+            )
     revision.review_state = state
     revision.review_reason = reason
     revision.replaced_by_id = None if replacement is None else replacement.id
@@ -392,6 +417,19 @@ def set_review_state(
             "to": state,
             "reason": reason,
             "replaced_by": None if replacement is None else replacement.content_hash,
+            "replacement_reason": replacement_reason if replacement is not None else None,
         },
     )
     return revision
+
+
+def _condition_differences(revision: PolarRevision, other: PolarRevision) -> list[str]:
+    """The conditions in which ``other`` differs from ``revision``, as text."""
+    found = []
+    if other.airfoil_id != revision.airfoil_id:
+        found.append(f"airfoil {other.airfoil.name!r} instead of {revision.airfoil.name!r}")
+    for name in ("reynolds", "mach", "surface"):
+        mine, theirs = getattr(revision, name), getattr(other, name)
+        if mine != theirs:
+            found.append(f"{name} {theirs} instead of {mine}")
+    return found

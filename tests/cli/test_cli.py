@@ -169,3 +169,25 @@ def test_audit_shows_the_review_state_change_and_reason(url, capsys):
     (review,) = [line for line in capsys.readouterr().out.splitlines() if "polar.review" in line]
     assert "draft -> deprecated (reason: tunnel wall correction missing)" in review
     assert f"{revision} -> {revision}" not in review
+
+
+def test_corrections_from_the_command_line(url, capsys):
+    assert main(["--database-url", url, "import", "--create-families", str(SEED)]) == 0
+    assert main(["--database-url", url, "airfoil", "rename", "SKUA-250", "SKUA-250-B",
+                 "--reason", "series naming"]) == 0
+    assert main(["--database-url", url, "airfoil", "retire", "SKUA-250",  # the alias resolves
+                 "--reason", "suspect model"]) == 0
+    assert main(["--database-url", url, "family", "create", "spare"]) == 0
+    assert main(["--database-url", url, "airfoil", "move", "SKUA-250-B", "spare",
+                 "--reason", "kept apart"]) == 0
+    revision = sorted(hashes(url))[0]
+    assert main(["--database-url", url, "review", "correct", revision,
+                 "--facility", "Skerry tunnel (fictional)", "--reason", "was missing"]) == 0
+    capsys.readouterr()
+    assert main(["--database-url", url, "audit", "--object", "SKUA-250-B"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert any("airfoil.rename" in line and "name=SKUA-250 -> name=SKUA-250-B (reason: series "
+               "naming)" in line for line in lines)
+    assert any("airfoil.move" in line and "family=skua -> family=spare" in line
+               for line in lines)
+    assert main(["--database-url", url, "audit", "--actor", "x-nobody"]) == 0

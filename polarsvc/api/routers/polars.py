@@ -9,11 +9,12 @@ from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, table_response
-from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
+from polarsvc.api.schemas import ERROR_RESPONSES, ProvenanceCorrection, ReviewChange
 from polarsvc.api.served import served_response
 from polarsvc.api.settings import Settings
 from polarsvc.formats import METADATA_KEYS
 from polarsvc.ingest import UploadedFile, store_files
+from polarsvc.store import curation
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import PolarRevision
@@ -364,9 +365,28 @@ def review_polar(content_hash: str, change: ReviewChange, request: Request, prin
     with session_scope(request.app.state.session_factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=content_hash, state=change.state, reason=change.reason,
-            replaced_by_hash=change.replaced_by, actor=principal.actor(),
+            replaced_by_hash=change.replaced_by, replacement_reason=change.replacement_reason,
+            actor=principal.actor(),
         )
         return json_response(revision_summary(revision))
+
+
+@router.post(
+    "/polars/{content_hash}/correct",
+    status_code=201,
+    summary="Correct provenance fields by a new revision that supersedes this one (curator)",
+)
+def correct_polar(
+    content_hash: str, body: ProvenanceCorrection, request: Request, principal: Curator
+):
+    """The table, conditions and quality flags are kept; the old revision stays stored and
+    verifiable. One audit event ``polar.correct`` holds the fields before and after."""
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        revision = curation.correct_provenance(
+            session, content_hash=content_hash, changes=body.provenance, reason=body.reason,
+            actor=principal.actor(),
+        )
+        return json_response(revision_summary(revision), status_code=201)
 
 
 @router.get(
