@@ -637,7 +637,9 @@ def build_parser() -> argparse.ArgumentParser:
                        help="server address (default: POLARSVC_SERVER, else the address "
                        "`polarsvc serve` recorded here, else http://127.0.0.1:8000)")
     fetch.add_argument("--token", default=os.environ.get("POLARSVC_TOKEN"))
-    fetch.add_argument("--format", choices=("json", "csv", "bin"), default="csv")
+    fetch.add_argument(
+        "--format", choices=("json", "csv", "bin", "arrow", "npz"), default="csv"
+    )
     fetch.add_argument("--thickness", type=float, help="blend: t/c as a fraction")
     fetch.add_argument("--reynolds", type=float, help="blend: Reynolds number")
     fetch.add_argument("--param", action="append", metavar="KEY=VALUE",

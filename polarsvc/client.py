@@ -27,7 +27,14 @@ import httpx
 import numpy as np
 
 from polarsvc.aero import Polar
-from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
+from polarsvc.formats.binary import (
+    ARROW_AVAILABLE,
+    ARROW_MEDIA_TYPE,
+    NPZ_MEDIA_TYPE,
+    BinaryTable,
+    decode_arrow,
+    decode_npz,
+)
 
 __all__ = [
     "AuthError",
@@ -113,13 +120,23 @@ def _raise_for(response: httpx.Response) -> None:
     raise ServiceError(response.status_code, detail)
 
 
-def _table_from_binary(payload: bytes) -> DerivedTable:
-    arrays, meta = decode_binary(payload)
+def _table_from_binary(payload: bytes, media_type: str) -> DerivedTable:
+    """Decode an Arrow IPC stream or an .npz archive, by the answer's media type."""
+    decoded: BinaryTable
+    if media_type.startswith(ARROW_MEDIA_TYPE):
+        decoded = decode_arrow(payload)
+    elif media_type.startswith(NPZ_MEDIA_TYPE):
+        decoded = decode_npz(payload)
+    else:
+        raise ClientError(f"unexpected table media type {media_type!r}")
+    meta = dict(decoded.meta)
+    if decoded.radius_m is not None:
+        meta.setdefault("radius_m", decoded.radius_m.tolist())
     return DerivedTable(
-        alpha_deg=arrays["alpha_deg"],
-        cl=arrays["cl"],
-        cd=arrays["cd"],
-        cm=arrays.get("cm"),
+        alpha_deg=decoded.alpha_deg,
+        cl=decoded.columns["cl"],
+        cd=decoded.columns["cd"],
+        cm=decoded.columns.get("cm"),
         meta=meta,
     )
 
@@ -172,11 +189,15 @@ class PolarClient:
         return response.json()
 
     def _get_table(self, path: str, **params: Any) -> DerivedTable:
+        # Arrow IPC when pyarrow is installed here (the server falls back to .npz when it
+        # lacks pyarrow), else .npz
+        fmt = "bin" if ARROW_AVAILABLE else "npz"
+        accept = f"{ARROW_MEDIA_TYPE}, {NPZ_MEDIA_TYPE}" if ARROW_AVAILABLE else NPZ_MEDIA_TYPE
         response = self._http.get(
-            path, params=_clean({**params, "format": "bin"}), headers={"Accept": BINARY_MEDIA_TYPE}
+            path, params=_clean({**params, "format": fmt}), headers={"Accept": accept}
         )
         _raise_for(response)
-        return _table_from_binary(response.content)
+        return _table_from_binary(response.content, response.headers.get("content-type", ""))
 
     # -- catalogue -------------------------------------------------------------------------
     def families(self) -> list[dict[str, Any]]:

@@ -264,9 +264,9 @@ def compute_and_store(
         family_cache=PREPARED_FAMILIES.get,
         airfoils={s.content_hash: s.airfoil for s in inputs.summaries},
     )
-    reports = orjson.loads(
-        orjson.dumps(result.reports, option=orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS)
-    )
+    # the reports are served as computed (orjson encodes numpy values in responses) and
+    # stored as JSON text once, by put_derived: no encode-decode round trip on a miss
+    reports = dict(result.reports)
     with session_scope(factory, write=True) as session:
         row, created = derived_store.put_derived(
             session,
