@@ -12,6 +12,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from polarsvc.aero import Polar
 from polarsvc.aero.quality import (
@@ -118,3 +120,28 @@ def test_prandtl_glauert_factor_and_the_mach_check():
     assert codes(context_flags(bare, in_family=True, mach_stated=False)) == {
         "reynolds-missing", "mach-not-stated"}
     assert context_flags(bare, in_family=False) == []
+
+
+finite = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False)
+
+
+@settings(max_examples=80, deadline=None, database=None)
+@given(
+    rows=st.lists(
+        st.tuples(st.floats(min_value=-180, max_value=180, allow_nan=False), finite,
+                  st.floats(min_value=1e-4, max_value=1e6)),
+        min_size=2, max_size=40, unique_by=lambda r: r[0],
+    ),
+    thickness=st.one_of(st.none(), st.floats(min_value=0.05, max_value=1.0)),
+)
+def test_flags_never_fail_and_always_name_a_known_level(rows, thickness):
+    alpha, cl, cd = (np.array(c) for c in zip(*rows, strict=True))
+    polar = Polar(alpha, cl, cd, thickness=thickness, assume_degrees=True)
+    flags = table_flags(polar)
+    assert all(f.level in ("error", "warning") for f in flags)
+    for flag in flags:
+        if flag.row is not None:
+            assert polar.alpha_deg[flag.row] == flag.alpha_deg
+    # anything beyond the absurd bound is always refused, whatever else is found
+    if np.max(np.abs(cl)) > 1000:
+        assert any(f.code == "absurd-magnitude" and not f.overridable for f in flags)
