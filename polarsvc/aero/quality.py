@@ -54,10 +54,10 @@ Table size (``too-few-rows`` error below :data:`MIN_ROWS` = 5 rows, ``few-rows``
 :data:`FEW_ROWS` = 10): the lift line needs two or more points within 5 deg of alpha0 and the
 extension a stall on each side (common practice, no source).
 
-Zero-lift angle (``one-sided``, error): a lifting section with fewer than
-:data:`MIN_ROWS_PER_SIDE` = 2 rows on one side of its zero-lift angle, or without data on both
-sides of 0 deg, cannot be extended to -180..180 deg
-(:func:`polarsvc.aero.extension.extend_full_range`).
+Zero-lift angle (``one-sided``): a lifting section without rows on one side of its zero-lift
+angle, or without data on both sides of 0 deg, cannot be extended to -180..180 deg
+(:func:`polarsvc.aero.extension.extend_full_range`): error; fewer than
+:data:`MIN_ROWS_PER_SIDE` = 2 rows on one side: warning.
 
 Context of a family member (:func:`context_flags`):
 
@@ -273,14 +273,18 @@ def _lift_flags(polar: Polar) -> list[QualityFlag]:
 def _side_flags(polar: Polar, alpha0: float) -> list[QualityFlag]:
     below = int(np.count_nonzero(polar.alpha_deg < alpha0))
     above = int(np.count_nonzero(polar.alpha_deg > alpha0))
-    if (min(below, above) < MIN_ROWS_PER_SIDE
-            or not (polar.alpha_deg[0] < 0.0 < polar.alpha_deg[-1])):
-        side = "below" if below < above else "above"
+    side = "below" if below < above else "above"
+    where = (f"{min(below, above)} rows {side} the zero-lift angle {alpha0:.2f} deg (table "
+             f"spans {polar.alpha_deg[0]:g}..{polar.alpha_deg[-1]:g} deg)")
+    if min(below, above) == 0 or not (polar.alpha_deg[0] < 0.0 < polar.alpha_deg[-1]):
         return [QualityFlag(
             "one-sided", "error",
-            f"{min(below, above)} rows {side} the zero-lift angle {alpha0:.2f} deg (table "
-            f"spans {polar.alpha_deg[0]:g}..{polar.alpha_deg[-1]:g} deg): the table cannot be "
-            "extended to -180..180 deg", field="alpha_deg",
+            f"{where}: the table cannot be extended to -180..180 deg", field="alpha_deg",
+        )]
+    if min(below, above) < MIN_ROWS_PER_SIDE:
+        return [QualityFlag(
+            "one-sided", "warning", f"{where}: the negative-stall side rests on one row",
+            field="alpha_deg",
         )]
     return []
 

@@ -19,7 +19,7 @@ def polar_file(thread: int, index: int) -> bytes:
     """A small invented table (test data, no source), distinct per thread and index."""
     lift = 0.0001 * (thread * UPLOADS_PER_THREAD + index)
     return (
-        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: 0.25\n"
+        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: {0.20 + 0.01 * (thread % 20):.2f}\n"
         f"# reynolds: {2e6 + index * 1e5}\n# mach: 0\n# source_kind: synthetic\n"
         + plausible_rows(lift)
     ).encode()

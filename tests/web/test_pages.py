@@ -225,7 +225,7 @@ def _store_hostile_airfoil(demo: Demo) -> str:
     name = "<img src=x onerror=alert(1)>"
     with session_scope(demo.app.state.session_factory, write=True) as session:
         airfoil_store.create_airfoil(
-            session, name=name, thickness=0.21, family="skua",
+            session, name=name, thickness=0.22, family="skua",
             description="<script>alert('description')</script>", actor=SYSTEM_ACTOR,
         )
         polar_store.store_polar(
