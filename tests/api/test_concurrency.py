@@ -18,8 +18,9 @@ UPLOADS_PER_THREAD = 6
 def polar_file(thread: int, index: int) -> bytes:
     """A small invented table (test data, no source), distinct per thread and index."""
     lift = 0.0001 * (thread * UPLOADS_PER_THREAD + index)
+    thickness = 0.20 + 0.01 * (thread % 20)  # one airfoil per thickness in a family
     return (
-        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: {0.20 + 0.01 * (thread % 20):.2f}\n"
+        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: {thickness:.2f}\n"
         f"# reynolds: {2e6 + index * 1e5}\n# mach: 0\n# source_kind: synthetic\n"
         + plausible_rows(lift)
     ).encode()
