@@ -19,7 +19,8 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session, sessionmaker
 
 from polarsvc.aero.quality import UNOVERRIDABLE, QualityFlag, context_flags, table_flags
-from polarsvc.formats import FormatError, ParsedPolar, parse_polar_file
+from polarsvc.formats import FormatError, parse_polar_file
+from polarsvc.formats.metadata import ParsedPolar
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
@@ -91,36 +92,23 @@ class StoredOutcome:
         }
 
 
-def store_file(
-    session: Session,
+def parse_upload(
     data: bytes,
     *,
-    actor: Actor,
     filename: str | None = None,
     content_type: str | None = None,
     defaults: Mapping[str, object] | None = None,
     max_bytes: int = 5_000_000,
     supersedes: str | None = None,
-    override_quality: str | None = None,
-) -> list[StoredOutcome]:
-    """Parse ``data`` and store every polar in it, in the caller's transaction.
-
-    An airfoil that does not exist yet is created when the file states its thickness; its
-    family must exist already (a misspelt family name is refused, not created).
-    ``supersedes`` (a revision hash) applies to a file holding one polar.
-
-    Every polar gets quality flags (:mod:`polarsvc.aero.quality`: the table, and its place
-    in the family). Error-level flags refuse the file, naming line and field, unless
-    ``override_quality`` gives the curator's reason for storing it anyway (kept with the
-    revision and in its audit event); warnings are stored with the revision.
+) -> list[ParsedPolar]:
+    """Parse an uploaded file without touching the database (so a server parses before it
+    takes the write lock).
 
     Raises
     ------
     FormatError
-        The file cannot be read (names line and field), its family does not exist, or
-        :class:`QualityRefused`.
-    StoreError
-        An airfoil is unknown and the file gives no thickness, or a conflict.
+        The file cannot be read (names line and field), or ``supersedes`` is given for a
+        file of several polars.
     """
     parsed = parse_polar_file(
         data, filename=filename, content_type=content_type, defaults=defaults,
@@ -131,6 +119,19 @@ def store_file(
             f"'supersedes' applies to a file of one polar; this file holds {len(parsed)}",
             field="supersedes",
         )
+    return parsed
+
+
+def store_parsed(
+    session: Session,
+    parsed: Sequence[ParsedPolar],
+    *,
+    actor: Actor,
+    supersedes: str | None = None,
+    override_quality: str | None = None,
+    filename: str | None = None,
+) -> list[StoredOutcome]:
+    """Store parsed polars in the caller's transaction (see :func:`store_file`)."""
     override = (override_quality or "").strip() or None
     outcomes = []
     for item in parsed:
@@ -165,6 +166,45 @@ def store_file(
     return outcomes
 
 
+def store_file(
+    session: Session,
+    data: bytes,
+    *,
+    actor: Actor,
+    filename: str | None = None,
+    content_type: str | None = None,
+    defaults: Mapping[str, object] | None = None,
+    max_bytes: int = 5_000_000,
+    supersedes: str | None = None,
+    override_quality: str | None = None,
+) -> list[StoredOutcome]:
+    """Parse ``data`` and store every polar in it, in the caller's transaction.
+
+    An airfoil that does not exist yet is created when the file states its thickness; its
+    family must exist already (a misspelt family name is refused, not created).
+    ``supersedes`` (a revision hash) applies to a file holding one polar.
+
+    Every polar gets quality flags (:mod:`polarsvc.aero.quality`: the table, and its place
+    in the family). Error-level flags refuse the file, naming line and field, unless
+    ``override_quality`` gives the curator's reason for storing it anyway (kept with the
+    revision and in its audit event); warnings are stored with the revision.
+
+    Raises
+    ------
+    FormatError
+        The file cannot be read (names line and field), its family does not exist, or
+        :class:`QualityRefused`.
+    StoreError
+        An airfoil is unknown and the file gives no thickness, or a conflict.
+    """
+    parsed = parse_upload(
+        data, filename=filename, content_type=content_type, defaults=defaults,
+        max_bytes=max_bytes, supersedes=supersedes,
+    )
+    return store_parsed(session, parsed, actor=actor, supersedes=supersedes,
+                        override_quality=override_quality, filename=filename)
+
+
 @dataclass(frozen=True)
 class UploadedFile:
     """One file of an upload: name (or None), bytes, declared content type (or None)."""
@@ -174,8 +214,16 @@ class UploadedFile:
     content_type: str | None = None
 
 
-def store_files(
-    session: Session,
+def _named(exc: FormatError, upload: UploadedFile, several: bool) -> FormatError:
+    """Prefix the file name to an error of one file of an upload (and set ``file``)."""
+    if several or upload.filename:
+        exc.args = (f"file {upload.filename!r}: {exc.args[0]}",)
+        exc.file = upload.filename  # type: ignore[attr-defined]
+    return exc
+
+
+def store_uploads(
+    factory: sessionmaker[Session],
     files: Sequence[UploadedFile],
     *,
     actor: Actor,
@@ -184,25 +232,54 @@ def store_files(
     supersedes: str | None = None,
     override_quality: str | None = None,
 ) -> list[StoredOutcome]:
-    """:func:`store_file` for each of several files, in the caller's transaction (all or
-    nothing). An error names the file it comes from (as ``file`` on the error and at the
-    start of its message)."""
+    """Parse every file first, then store them all in one write transaction of its own
+    (all or nothing; the write lock is held for the storing only). An error names the file
+    it comes from. Blocking; a server calls it from a worker thread."""
     if supersedes is not None and len(files) != 1:
         raise FormatError("'supersedes' applies to an upload of one file", field="supersedes")
-    outcomes: list[StoredOutcome] = []
+    several = len(files) > 1
+    parsed = []
     for upload in files:
         try:
-            outcomes.extend(store_file(
-                session, upload.data, actor=actor, filename=upload.filename,
-                content_type=upload.content_type, defaults=defaults, max_bytes=max_bytes,
-                supersedes=supersedes, override_quality=override_quality,
+            parsed.append(parse_upload(
+                upload.data, filename=upload.filename, content_type=upload.content_type,
+                defaults=defaults, max_bytes=max_bytes, supersedes=supersedes,
             ))
         except FormatError as exc:
-            if len(files) > 1 or upload.filename:
-                exc.args = (f"file {upload.filename!r}: {exc.args[0]}",)
-                exc.file = upload.filename  # type: ignore[attr-defined]
-            raise
+            raise _named(exc, upload, several) from None
+    outcomes: list[StoredOutcome] = []
+    with session_scope(factory, write=True) as session:
+        for upload, items in zip(files, parsed, strict=True):
+            try:
+                outcomes.extend(store_parsed(
+                    session, items, actor=actor, supersedes=supersedes,
+                    override_quality=override_quality, filename=upload.filename,
+                ))
+            except FormatError as exc:
+                raise _named(exc, upload, several) from None
     return outcomes
+
+
+def store_upload(
+    factory: sessionmaker[Session],
+    data: bytes,
+    *,
+    actor: Actor,
+    filename: str | None = None,
+    content_type: str | None = None,
+    defaults: Mapping[str, object] | None = None,
+    max_bytes: int = 5_000_000,
+    supersedes: str | None = None,
+    override_quality: str | None = None,
+) -> list[StoredOutcome]:
+    """:func:`store_uploads` of one file (parsed before the write transaction)."""
+    parsed = parse_upload(
+        data, filename=filename, content_type=content_type, defaults=defaults,
+        max_bytes=max_bytes, supersedes=supersedes,
+    )
+    with session_scope(factory, write=True) as session:
+        return store_parsed(session, parsed, actor=actor, supersedes=supersedes,
+                            override_quality=override_quality, filename=filename)
 
 
 def polar_flags(session: Session, item: ParsedPolar, airfoil: Airfoil) -> list[dict[str, Any]]:
@@ -321,13 +398,11 @@ def import_files(
     (the caller shows progress). A refused file leaves the database unchanged."""
     for path in paths:
         try:
-            data = path.read_bytes()
-            with session_scope(factory, write=True) as session:
-                outcomes = store_file(
-                    session, data, actor=actor, filename=path.name, defaults=defaults,
-                    max_bytes=max_bytes, override_quality=override_quality,
-                )
-        except (FormatError, StoreError, OSError, ValueError) as exc:
+            outcomes = store_upload(
+                factory, path.read_bytes(), actor=actor, filename=path.name,
+                defaults=defaults, max_bytes=max_bytes, override_quality=override_quality,
+            )
+        except (FormatError, StoreError, OSError, ValueError, ArithmeticError) as exc:
             yield FileReport(path=path, stored=0, identical=0, error=str(exc))
             continue
         created = sum(o.created for o in outcomes)

@@ -16,11 +16,11 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
-from polarsvc.store._lookup import check_name
+from polarsvc.store._lookup import check_name, check_text
 from polarsvc.store.airfoils import get_airfoil, get_family
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue
-from polarsvc.store.models import NAME_LENGTH, Airfoil, AirfoilAlias, PolarRevision, utc_now
+from polarsvc.store.models import Airfoil, AirfoilAlias, PolarRevision, utc_now
 from polarsvc.store.polars import (
     get_revision,
     load_polar,
@@ -34,6 +34,7 @@ from polarsvc.store.polars import (
 def _reason(reason: str | None) -> str:
     if reason is None or not reason.strip():
         raise InvalidValue("reason", "a correction needs a reason (kept in the audit trail)")
+    check_text("reason", reason)
     return reason.strip()
 
 
@@ -103,7 +104,7 @@ def rename_airfoil(
     NotFound, Conflict (the new name is taken by an airfoil or alias), InvalidValue
     """
     why = _reason(reason)
-    check_name("new_name", new_name, NAME_LENGTH)
+    check_name("new_name", new_name)
     airfoil = get_airfoil(session, name)
     old = airfoil.name
     if new_name == old:
