@@ -47,6 +47,25 @@ def event_summary(event: AuditEvent, *, identities: bool) -> dict[str, Any]:
     }
 
 
+LINEAGE_IDENTITY_KEYS = frozenset({"by", "uploaded_by"})
+"""Keys of a lineage tree (:mod:`polarsvc.lineage`) that hold token names."""
+
+
+def lineage_for(principal: Principal, tree: Any) -> Any:
+    """A lineage tree as ``principal`` may see it: for others than admins, every
+    :data:`LINEAGE_IDENTITY_KEYS` value is None (reviews keep the reviewer's role)."""
+    if sees_identities(principal):
+        return tree
+    if isinstance(tree, dict):
+        return {
+            key: None if key in LINEAGE_IDENTITY_KEYS else lineage_for(principal, value)
+            for key, value in tree.items()
+        }
+    if isinstance(tree, list):
+        return [lineage_for(principal, item) for item in tree]
+    return tree
+
+
 class ActorFilterRefused(PermissionError):
     """Filtering the audit trail by actor (a token name) is an admin's query."""
 

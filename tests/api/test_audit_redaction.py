@@ -67,3 +67,22 @@ def test_anonymous_public_readers_see_roles_only(demo_client, tokens, prepared_d
         assert answer.status_code == 200 and answer.json()
         assert not any(name in answer.text for name in SECRETS)
         assert c.get("/api/v1/audit", params={"actor": "test-curator"}).status_code == 403
+
+
+def test_lineage_shows_uploaders_and_reviewers_to_admins_only(demo_client, tokens):
+    revision = curated(demo_client, tokens)
+    reader = tokens.header("reader")
+    table = demo_client.get(f"/api/v1/polars/{revision}/extended", headers=reader).json()
+    key = table["recipe_hash"]
+    for fmt in ("json", "text"):
+        shown = demo_client.get(f"/api/v1/derived/{key}/lineage", params={"format": fmt},
+                                headers=reader)
+        assert shown.status_code == 200
+        assert "test-curator" not in shown.text and "system" not in shown.text, fmt
+        full = demo_client.get(f"/api/v1/derived/{key}/lineage", params={"format": fmt},
+                               headers=tokens.header("admin"))
+        assert "test-curator" in full.text and "system" in full.text, fmt
+    tree = demo_client.get(f"/api/v1/derived/{key}/lineage", headers=reader).json()
+    leaf = tree["inputs"][0]
+    assert leaf["uploaded_by"] is None and leaf["reviews"][0]["by"] is None
+    assert leaf["reviews"][0]["role"] == "curator"

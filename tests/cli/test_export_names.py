@@ -61,3 +61,32 @@ def test_export_of_odd_names_stays_inside_the_destination(database_url, tmp_path
             shown = name.replace("\\", "\\\\").replace("\t", "\\t") if fmt == "json" else name
             assert shown in texts
     capsys.readouterr()
+
+
+def test_a_bundle_of_odd_names_is_written_inside_its_folder_and_refused_on_import(
+    database_url, tmp_path, capsys
+):
+    legacy_database(database_url, tmp_path.name)
+    bundle = tmp_path / "work" / "bundle"
+    assert main(["--database-url", database_url, "bundle", "export", str(bundle)]) == 0
+    written = {p for p in tmp_path.rglob("*") if p.is_file()}
+    assert all(bundle in p.parents for p in written if "bundle" in p.parts)
+    assert list(Path("/tmp").glob(f"polarsvc-absolute-{tmp_path.name}*")) == []
+    capsys.readouterr()
+    target = f"sqlite:///{tmp_path / 'target.db'}"
+    assert main(["--database-url", target, "bundle", "import", str(bundle)]) == 1
+    err = capsys.readouterr().err
+    assert "not a valid name" in err and "name" in err
+
+
+def test_the_command_line_refuses_bad_names_naming_the_field(database_url, tmp_path, capsys):
+    for name in ("dir/sub", "../x", "a\tb"):
+        code = main(["--database-url", database_url, "token", "create", name,
+                     "--role", "reader"])
+        assert code == 1 and "field 'name'" in capsys.readouterr().err
+    table = tmp_path / "t.csv"
+    table.write_text("alpha_deg,cl,cd\n0,0.1,0.01\n5,0.6,0.012\n")
+    code = main(["--database-url", database_url, "import", str(table), "--airfoil", "../x",
+                 "--thickness", "0.2", "--source-kind", "synthetic"])
+    out = capsys.readouterr()
+    assert code == 1 and "field 'airfoil'" in out.out
