@@ -161,5 +161,5 @@ def test_replacement_at_other_conditions_needs_a_reason(demo_client, tokens):
     assert "reynolds" in refused.json()["detail"]
     accepted = demo_client.post(f"/api/v1/polars/{low}/review", json={
         "state": "deprecated", "reason": "bad run", "replaced_by": high,
-        "replacement_reason": "the higher-Re run is the campaign's reference"}, headers=curator)
+        "replacement_reason": "the higher-Re run is the series reference"}, headers=curator)
     assert accepted.status_code == 200, accepted.text

@@ -261,7 +261,7 @@ def test_a_replacement_must_match_the_conditions_or_say_why(
     with session_scope(seeded, write=True) as session:
         set_review_state(session, content_hash=a, state="deprecated", reason="x",
                          replaced_by_hash=other_reynolds,
-                         replacement_reason="the 6e6 run supersedes the whole campaign",
+                         replacement_reason="the 6e6 run supersedes the whole series",
                          actor=CURATOR)
     with session_scope(seeded, write=True) as session:
         set_review_state(session, content_hash=other_reynolds, state="deprecated",
@@ -274,4 +274,4 @@ def test_a_replacement_must_match_the_conditions_or_say_why(
         (event,) = [e for e in query_events(session, object_key=a) if e.action == "polar.review"]
         detail = json.loads(event.detail)
     assert (detail["from"], detail["to"]) == ("draft", "deprecated")
-    assert detail["replacement_reason"] == "the 6e6 run supersedes the whole campaign"
+    assert detail["replacement_reason"] == "the 6e6 run supersedes the whole series"
