@@ -27,8 +27,7 @@ def test_airfoil_creation_is_idempotent_and_keeps_coordinates(client, tokens):
     assert [a["name"] for a in listing] == ["TERN-240"]
     families = client.get("/api/v1/families", headers=reader).json()
     assert families == [{**families[0], "name": "tern",
-                         "airfoils": [{"name": "TERN-240", "thickness": 0.24,
-                                       "retired": False}]}]
+                         "airfoils": [{"name": "TERN-240", "thickness": 0.24}]}]
 
 
 def test_revision_listing_filters_by_family_surface_and_reynolds(demo_client, tokens):

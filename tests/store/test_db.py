@@ -44,7 +44,9 @@ def test_migrations_create_the_schema(engine: Engine) -> None:
     with engine.connect() as connection:
         from alembic.script import ScriptDirectory
 
-        head = ScriptDirectory.from_config(db.alembic_config(connection)).get_current_head()
+        from polarsvc.store.db import alembic_config
+
+        head = ScriptDirectory.from_config(alembic_config()).get_current_head()
         assert head is not None and head != "0001"  # the chain grows past the initial schema
         assert connection.scalar(text("SELECT version_num FROM alembic_version")) == head
 
