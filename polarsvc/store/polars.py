@@ -222,11 +222,14 @@ def store_polar(
     return revision, True
 
 
-def revision_flags(revision: PolarRevision) -> list[dict[str, Any]]:
+def revision_flags(revision: PolarRevision | RevisionSummary) -> list[dict[str, Any]]:
     """The quality flags of a revision: as stored at upload, or (for revisions stored
-    before flags existed) computed from its table alone."""
+    before flags existed) computed from its table alone (a listing's summary, which holds
+    no table, shows none for those)."""
     if revision.quality_flags is not None:
         return list(json.loads(revision.quality_flags))
+    if not isinstance(revision, PolarRevision):
+        return []
     return [f.as_dict() for f in table_flags(load_polar(revision))]
 
 
@@ -437,12 +440,14 @@ class RevisionSummary:
     replaced_by: HashRef | None
     created_at: dt.datetime
     created_by: str
+    quality_flags: str | None = None
+    quality_override: str | None = None
 
 
 _SUMMARY_COLUMNS = (
     "id", "content_hash", "reynolds", "mach", "surface", "n_rows", "has_cm", "source_kind",
     "reference", "facility", "measured_on", "contributor", "notes", "review_state",
-    "review_reason", "created_at", "created_by",
+    "review_reason", "created_at", "created_by", "quality_flags", "quality_override",
 )
 
 
