@@ -319,14 +319,14 @@ def cmd_fetch(args: argparse.Namespace) -> int:
     import httpx
 
     server = _server_address(args).rstrip("/") + "/api/v1"
-    params: dict[str, Any] = {"format": args.format}
+    params: dict[str, Any] = {"format": "zip" if args.what == "package" else args.format}
     for item in args.param or []:
         key, sep, value = item.partition("=")
         if not sep:
             _stderr(f"--param {item!r}: expected key=value")
             return 2
         params[key] = value
-    if args.what == "blade":
+    if args.what in ("blade", "package"):
         path = f"/blades/{args.key}/tables"
     elif args.what == "blend":
         path = f"/families/{args.key}/blend"
@@ -510,8 +510,10 @@ def build_parser() -> argparse.ArgumentParser:
     exporter.set_defaults(handler=cmd_export)
 
     fetch = commands.add_parser("fetch", help="fetch a derived table or blade set from a server")
-    fetch.add_argument("what", choices=("blade", "blend", "extended", "augmented", "resampled",
-                                        "derived"))
+    fetch.add_argument("what", choices=("blade", "package", "blend", "extended", "augmented",
+                                        "resampled", "derived"),
+                       help="package: a blade's station package (zip: one table per station "
+                       "plus manifest.json)")
     fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
     fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER"),
                        help="server address (default: POLARSVC_SERVER, else the address "

@@ -18,7 +18,7 @@ from polarsvc.api.routers.polars import (
     approved_only_setting,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
-from polarsvc.api.served import served_response
+from polarsvc.api.served import PACKAGE_FORMAT, package_response, served_response
 from polarsvc.api.visibility import shown_name
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
@@ -85,7 +85,10 @@ def get_blade(key: str, session: ReadSession, principal: Reader):
         "(Kirchhoff separation function) and cl_fs (fully separated lift), have one row per "
         "station; per-station alpha0, lift slope and stall onset are in "
         "reports.stations[i].dynamic_stall. The CSV form is long (station radius, alpha_deg, "
-        "coefficients)."
+        "coefficients). Every form states the operating point and, per station, radius, "
+        "chord, twist, t/c and Reynolds number (`describes`; CSV comment lines). "
+        "`format=zip` answers with the station package: one CSV per station plus "
+        "manifest.json (layout in the README)."
     ),
 )
 def blade_tables(
@@ -103,7 +106,7 @@ def blade_tables(
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
-    fmt = choose_format(request, format)
+    fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
     options = {
         "surface": surface,
         "thickness_method": thickness_method,
@@ -118,6 +121,8 @@ def blade_tables(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
     )
+    if fmt == PACKAGE_FORMAT:
+        return package_response(request, served)
     return served_response(request, served, fmt)
 
 
