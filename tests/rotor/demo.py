@@ -43,3 +43,10 @@ def demo_geometry() -> RotorGeometry:
         rotor_radius_m=blade["rotor_radius_m"],
         hub_radius_m=blade["hub_radius_m"],
     )
+
+
+def demo_turbine():
+    """The fictional 3 MW-class machine of the demo blade (seed_polars/skerry-48.json)."""
+    from polarsvc.rotor import TurbineData
+
+    return TurbineData.from_mapping(demo_blade()["turbine"])
