@@ -133,11 +133,19 @@ def encode_csv(
             station_column="radius_m" if stations_radius_m is not None else "station",
         )
         return text.encode("utf-8")
+    return encode_rows_csv({"alpha_deg": alpha_deg, **columns}, comments=comments)
+
+
+def encode_rows_csv(
+    columns: Mapping[str, np.ndarray], *, comments: Mapping[str, Any] | None = None
+) -> bytes:
+    """One-dimensional columns of one length as CSV rows (``repr`` floats), with
+    ``# key: value`` comment lines first."""
     buffer = io.StringIO()
     for key, value in (comments or {}).items():
         buffer.write(f"# {key}: {value}\n")
-    buffer.write(",".join(["alpha_deg", *columns]) + "\n")
-    stacked = np.column_stack([np.asarray(alpha_deg, dtype=np.float64), *columns.values()])
+    buffer.write(",".join(columns) + "\n")
+    stacked = np.column_stack([np.asarray(v, dtype=np.float64) for v in columns.values()])
     for row in stacked.tolist():
         buffer.write(",".join(repr(v) for v in row) + "\n")
     return buffer.getvalue().encode("utf-8")
@@ -181,6 +189,50 @@ def _json_arrays(alpha_deg: np.ndarray, columns: Mapping[str, np.ndarray]) -> by
     return dumps({"alpha_deg": np.ascontiguousarray(alpha_deg), **arrays})
 
 
+def _csv_comments(meta: Mapping[str, Any]) -> dict[str, Any]:
+    return {
+        key: (str(value).lower() if isinstance(value, bool) else value)
+        for key, value in meta.items()
+        if isinstance(value, str | int | float)
+    }
+
+
+def arrays_response(
+    request: Request,
+    *,
+    fmt: str,
+    content_hash: str,
+    arrays: Mapping[str, np.ndarray],
+    meta: Mapping[str, Any],
+    csv_columns: Mapping[str, np.ndarray],
+    csv_part: str,
+    extra_headers: Mapping[str, str] | None = None,
+) -> Response:
+    """A result of named arrays of any shapes (a rotor result) in the chosen format, with
+    the ETag and 304 handling of :func:`table_response`. JSON and the binary form carry
+    every array; CSV carries ``csv_columns`` (one-dimensional, of one length), the part
+    ``csv_part`` of the result."""
+    meta_bytes = dumps(meta)
+    tag = f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}"
+    etag = etag_for(tag, fmt if fmt != "csv" else f"csv-{csv_part}")
+    headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
+    if etag_matches(request, etag):
+        return Response(status_code=304, headers=headers)
+    if fmt == "bin":
+        entries, data = ENCODED.get((content_hash, "bin"), lambda: _pack_arrays(arrays))
+        return Response(_binary_body(entries, data, meta), media_type=BINARY_MEDIA_TYPE,
+                        headers=headers)
+    if fmt == "csv":
+        body = encode_rows_csv(csv_columns, comments=_csv_comments(meta))
+        return Response(body, media_type=CSV_MEDIA_TYPE, headers=headers)
+    arrays_json = ENCODED.get(
+        (content_hash, "json"),
+        lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()}),
+    )
+    body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
+    return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)
+
+
 def table_response(
     request: Request,
     *,
@@ -211,13 +263,8 @@ def table_response(
         body = _binary_body(entries, data, meta)
         return Response(body, media_type=BINARY_MEDIA_TYPE, headers=headers)
     if fmt == "csv":
-        comments = {
-            key: (str(value).lower() if isinstance(value, bool) else value)
-            for key, value in meta.items()
-            if isinstance(value, str | int | float)
-        }
         body = encode_csv(
-            alpha_deg, columns, comments=comments, stations_radius_m=stations_radius_m
+            alpha_deg, columns, comments=_csv_comments(meta), stations_radius_m=stations_radius_m
         )
         return Response(body, media_type=CSV_MEDIA_TYPE, headers=headers)
     arrays_json = ENCODED.get((content_hash, "json"), lambda: _json_arrays(alpha_deg, columns))

@@ -89,6 +89,36 @@ SCAN_POINTS = 64
 """Points per region of the fallback scan for a sign change (see :func:`solve`)."""
 
 
+def _narrow_windmill_brackets(
+    f: Any,
+    chosen: NDArray[np.intp],
+    lambda_r: FloatArray,
+    lower: FloatArray,
+    upper: FloatArray,
+    f_lower: FloatArray,
+    f_upper: FloatArray,
+) -> None:
+    """Split the bracket (0, pi/2] at the inflow angle without induction, atan(1/lambda_r),
+    and at half of it, and keep the first part with a sign change (in place). The root of
+    a loaded windmill lies mostly between the two, so the root finder starts from a bracket
+    a fraction of the width (fewer iterations); any part with a sign change holds a root
+    of Ning's residual in (0, pi/2]."""
+    if chosen.size == 0:
+        return
+    free = np.arctan(1.0 / lambda_r[chosen])
+    points = [np.maximum(0.5 * free, lower[chosen]), np.maximum(free, lower[chosen])]
+    values = [f(points[0], chosen), f(points[1], chosen)]
+    ends = [lower[chosen], points[0], points[1], upper[chosen]]
+    f_ends = [f_lower[chosen], values[0], values[1], f_upper[chosen]]
+    done = np.zeros(chosen.size, dtype=bool)
+    for j in range(3):
+        change = ~done & (f_ends[j] * f_ends[j + 1] <= 0.0) & (ends[j] < ends[j + 1])
+        pick = chosen[change]
+        lower[pick], upper[pick] = ends[j][change], ends[j + 1][change]
+        f_lower[pick], f_upper[pick] = f_ends[j][change], f_ends[j + 1][change]
+        done |= change
+
+
 def _scan_brackets(
     f: Any,
     elements: NDArray[np.intp],
@@ -232,6 +262,8 @@ class _Tables:
     def lookup(
         self, alpha_deg: FloatArray, row: NDArray[np.intp]
     ) -> tuple[FloatArray, FloatArray, NDArray[np.bool_]]:
+        """Linear interpolation at ``alpha_deg``; ``row`` is each element's offset
+        (station index x number of angles) into the flattened tables."""
         grid = self.grid
         first, last = grid[0], grid[-1]
         if self.periodic:
@@ -246,7 +278,7 @@ class _Tables:
             i = np.searchsorted(grid, x, side="right") - 1
         np.clip(i, 0, self.size - 2, out=i)
         t = (x - grid[i]) / (grid[i + 1] - grid[i])
-        flat = row * self.size + i
+        flat = row + i
         cl0 = self.cl[flat]
         cd0 = self.cd[flat]
         cl = cl0 + t * (self.cl[flat + 1] - cl0)
@@ -295,6 +327,7 @@ class _Elements:
     tip: FloatArray | None
     hub: FloatArray | None
     row: NDArray[np.intp]
+    offset: NDArray[np.intp]
     high_thrust: bool
     tangential: bool
 
@@ -307,7 +340,7 @@ def _state(
     c = np.cos(phi)
     lam = e.lambda_r[index]
     alpha_deg = np.degrees(phi - e.theta_rad[index])
-    cl, cd, outside = tables.lookup(alpha_deg, e.row[index])
+    cl, cd, outside = tables.lookup(alpha_deg, e.offset[index])
     cn = cl * c + cd * s
     ct = cl * s - cd * c
     abs_s = np.abs(s)
@@ -467,6 +500,7 @@ def solve(
         tip=None if tip_coeff is None else tip_coeff[rows],
         hub=None if hub_coeff is None else hub_coeff[rows],
         row=rows.astype(np.intp),
+        offset=rows.astype(np.intp) * tables.size,
         high_thrust=bool(high_thrust),
         tangential=bool(tangential_induction),
     )
@@ -502,6 +536,8 @@ def solve(
             unbracketed = rest[f_mid * f_far > 0.0]
             if unbracketed.size:
                 _scan_brackets(f, unbracketed, lower, upper, f_lower, f_upper, region, rows, ops)
+    _narrow_windmill_brackets(f, np.flatnonzero(region == REGION_WINDMILL), elements.lambda_r,
+                              lower, upper, f_lower, f_upper)
     roots = bracketed_roots(f, lower, upper, f_lower, f_upper, f_tol=RESIDUAL_TOLERANCE)
     if not np.all(roots.converged):
         bad = int(np.flatnonzero(~roots.converged)[0])
@@ -533,7 +569,7 @@ def solve(
     inflow[ops, rows] = roots.x
     alpha_free = np.degrees(inflow - theta)
     cl_free, cd_free, outside_free = tables.lookup(
-        alpha_free.ravel(), np.tile(np.arange(n), m)
+        alpha_free.ravel(), np.tile(np.arange(n) * tables.size, m)
     )
     cl_all = cl_free.reshape(m, n)
     cd_all = cd_free.reshape(m, n)

@@ -239,7 +239,8 @@ def operating_states(
     )
 
 
-PITCH_SCAN_STEP_DEG = 1.5
+PITCH_SCAN_STEP_DEG = 3.0
+PITCH_SCAN_FIRST_STOP_DEG = 45.0
 
 
 def _pitch_for_rated_power(
@@ -255,14 +256,23 @@ def _pitch_for_rated_power(
 ) -> FloatArray:
     """Pitch towards feather that gives rated power: the first pitch above the fine pitch
     where the power falls through rated (a stalled rotor first gains power when pitched,
-    so the fine pitch itself may lie below rated). Scan in 1.5 deg steps (one vectorised
-    solve), then the array root finder within the bracketing step."""
-    grid = np.arange(fine_pitch, FEATHER_PITCH_DEG + 1e-9, PITCH_SCAN_STEP_DEG)
-    if grid[-1] < FEATHER_PITCH_DEG:
-        grid = np.append(grid, FEATHER_PITCH_DEG)
+    so the fine pitch itself may lie below rated). Scan in 3 deg steps to 45 deg (one
+    vectorised solve; on to feather only if needed), then the array root finder within the
+    bracketing step."""
+    grid = np.arange(fine_pitch, PITCH_SCAN_FIRST_STOP_DEG + 1e-9, PITCH_SCAN_STEP_DEG)
     T, P = np.meshgrid(tsr, grid, indexing="ij")
     excess = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
     falling = (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
+    if not np.all(falling.any(axis=1)):
+        more = np.arange(grid[-1] + PITCH_SCAN_STEP_DEG, FEATHER_PITCH_DEG + 1e-9,
+                         PITCH_SCAN_STEP_DEG)
+        if more.size == 0 or more[-1] < FEATHER_PITCH_DEG:
+            more = np.append(more, FEATHER_PITCH_DEG)
+        T, P = np.meshgrid(tsr, more, indexing="ij")
+        extra = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
+        grid = np.concatenate([grid, more])
+        excess = np.concatenate([excess, extra], axis=1)
+        falling = (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
     found = falling.any(axis=1)
     if not np.all(found):
         bad = float(speed[int(np.argmin(found))])

@@ -21,7 +21,7 @@ DEFAULT_PITCHES_DEG = np.linspace(-5.0, 40.0, 46)
 """-5 to 40 deg in steps of 1 deg."""
 
 ZOOM_POINTS = 9
-ZOOM_STEPS = 3
+ZOOM_STEPS = 4
 
 
 @dataclass(frozen=True)
@@ -61,7 +61,7 @@ def best_operating_point(
 ) -> tuple[float, float, float]:
     """Refine the grid maximum of ``cp`` by successive zooms: a 9 x 9 grid spanning the
     neighbouring grid cells, solved at once, then again around its maximum with a quarter
-    of the span (3 times); bounded by the outer grid. Returns (tip speed ratio, pitch, Cp)."""
+    of the span (4 times); bounded by the outer grid. Returns (tip speed ratio, pitch, Cp)."""
     i, j = np.unravel_index(int(np.argmax(cp)), cp.shape)
     best = (float(tip_speed_ratio[i]), float(pitch_deg[j]), float(cp[i, j]))
 
