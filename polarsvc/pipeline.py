@@ -525,6 +525,36 @@ def rotor_performance(
     )
 
 
+def compare_performance(a: ServedTable, b: ServedTable) -> dict[str, Any]:
+    """Differences b - a of two served rotor results and of their recipes and inputs
+    (:func:`polarsvc.performance.compare_results`,
+    :func:`polarsvc.performance.recipe_differences`), with both identities and the
+    cautions."""
+
+    def identity(served: ServedTable) -> dict[str, Any]:
+        return {
+            "content_hash": served.content_hash,
+            "recipe_hash": served.recipe_hash,
+            "blade_set_recipe_hash": served.recipe["inputs"].get("blade_set"),
+            "blade": served.blade,
+            "draws_on_deprecated": bool(served.deprecated_inputs),
+        }
+
+    return {
+        "a": identity(a),
+        "b": identity(b),
+        "differences": performance.recipe_differences(
+            a.recipe, b.recipe, [i.as_dict() for i in a.inputs],
+            [i.as_dict() for i in b.inputs],
+        ),
+        **performance.compare_results(
+            a.columns, b.columns, a.reports["distributions"], b.reports["distributions"]
+        ),
+        "caution": CAUTION,
+        "rotor_caution": performance.ROTOR_CAUTION,
+    }
+
+
 def find_blade(session: Session, key: str) -> BladeDefinition:
     try:
         return blade_store.latest_blade(session, key)

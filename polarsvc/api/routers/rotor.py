@@ -8,7 +8,7 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Depends, Query, Request
 from pydantic import Field
 
-from polarsvc import performance, pipeline, recipes
+from polarsvc import pipeline, recipes
 from polarsvc.aero.errors import ParameterError
 from polarsvc.api.deps import Reader, SettingsDep
 from polarsvc.api.responses import choose_format, json_response
@@ -153,31 +153,4 @@ def compare(body: ComparisonIn, request: Request, settings: SettingsDep, _: Read
             factory, blade_key=spec.blade, options=options, rotor_options=rotor_options,
             approved_only=approved_only_setting(settings, spec.approved_only),
         ))
-    return json_response(comparison_document(served[0], served[1]))
-
-
-def comparison_document(a: pipeline.ServedTable, b: pipeline.ServedTable) -> dict[str, Any]:
-    """The comparison answer of two served rotor results."""
-    return {
-        "a": _identity(a),
-        "b": _identity(b),
-        "differences": performance.recipe_differences(
-            a.recipe, b.recipe, [i.as_dict() for i in a.inputs],
-            [i.as_dict() for i in b.inputs],
-        ),
-        **performance.compare_results(
-            a.columns, b.columns, a.reports["distributions"], b.reports["distributions"]
-        ),
-        "caution": pipeline.CAUTION,
-        "rotor_caution": performance.ROTOR_CAUTION,
-    }
-
-
-def _identity(served: pipeline.ServedTable) -> dict[str, Any]:
-    return {
-        "content_hash": served.content_hash,
-        "recipe_hash": served.recipe_hash,
-        "blade_set_recipe_hash": served.recipe["inputs"].get("blade_set"),
-        "blade": served.blade,
-        "draws_on_deprecated": bool(served.deprecated_inputs),
-    }
+    return json_response(pipeline.compare_performance(served[0], served[1]))
