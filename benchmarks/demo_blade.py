@@ -1,5 +1,5 @@
 """Shared inputs of the benchmarks: the demo family read from seed_polars/ (synthetic data,
-see seed_polars/README.md) and the demo blade resampled to 50 stations along the span."""
+see seed_polars/README.md) and the demo blade resampled to any number of stations along the span."""
 
 from __future__ import annotations
 
@@ -25,13 +25,18 @@ def demo_members() -> list[aero.Polar]:
 
 def fifty_station_blade() -> dict:
     """The demo blade definition resampled to 50 stations (linear in radius)."""
+    return station_blade(STATIONS, name="skerry-48-fifty")
+
+
+def station_blade(count: int, *, name: str | None = None) -> dict:
+    """The demo blade definition resampled to ``count`` stations (linear in radius)."""
     blade = json.loads((SEED / "skerry-48.json").read_text())
     stations = blade["stations"]
     radius = np.array([s["radius_m"] for s in stations])
-    new_radius = np.linspace(radius[0], radius[-1], STATIONS)
+    new_radius = np.linspace(radius[0], radius[-1], count)
     columns = {key: np.interp(new_radius, radius, [s[key] for s in stations])
                for key in ("chord_m", "twist_deg", "thickness")}
-    blade["name"] = "skerry-48-fifty"
+    blade["name"] = name or f"skerry-48-x{count}"
     blade["stations"] = [
         {"radius_m": float(r), **{k: float(v[i]) for k, v in columns.items()}}
         for i, r in enumerate(new_radius)

@@ -1,10 +1,16 @@
 """The ``polarsvc`` command line: a thin layer over the store, the service and the client.
 
-Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error.
+Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error,
+3 the server cannot listen where asked (port in use, unknown host).
+
 Local commands (import, export, db, token, review, audit, lineage, verify, bundle,
 performance, compare) work on the database named by ``--database-url`` or
-``POLARSVC_DATABASE_URL`` (default: the SQLite file ``./polarsvc-data/polarsvc.db``);
-``fetch`` talks to a running server.
+``POLARSVC_DATABASE_URL``; else on the database the last ``polarsvc serve`` in this folder
+served (recorded in ``./polarsvc-data/serving.json``, see :mod:`polarsvc.serving`), so that
+the tools and the demo server share one database; else on the SQLite file
+``./polarsvc-data/polarsvc.db``.
+``fetch`` talks to a running server (``--server``, ``POLARSVC_SERVER``, else the recorded
+address, else ``http://127.0.0.1:8000``).
 """
 
 from __future__ import annotations
@@ -25,6 +31,8 @@ from polarsvc import __version__
 SEED_DIRS = (Path(__file__).resolve().parent.parent / "seed_polars", Path.cwd() / "seed_polars")
 """Where the demo data are looked for: beside the package (a checkout), or here."""
 DEMO_DATABASE = Path("polarsvc-data") / "demo.db"
+DEFAULT_SERVER = "http://127.0.0.1:8000"
+EXIT_CANNOT_SERVE = 3
 
 
 def _stderr(message: str) -> None:
@@ -32,9 +40,31 @@ def _stderr(message: str) -> None:
 
 
 def _database_url(args: argparse.Namespace) -> str:
+    """The database of a local command (see the module docstring for the order)."""
+    from polarsvc.serving import SERVING_RECORD, read_serving_record
     from polarsvc.store.db import default_database_url
 
-    return args.database_url or os.environ.get("POLARSVC_DATABASE_URL") or default_database_url()
+    explicit = args.database_url or os.environ.get("POLARSVC_DATABASE_URL")
+    if explicit:
+        return explicit
+    record = read_serving_record()
+    if record is not None and record.database_url is not None:
+        if not getattr(args, "_database_noted", False):
+            _stderr(f"database: {record.database_url} (the one `polarsvc serve` uses here, "
+                    f"recorded in {SERVING_RECORD}; --database-url names another)")
+            args._database_noted = True
+        return record.database_url
+    return default_database_url()
+
+
+def _server_address(args: argparse.Namespace) -> str:
+    """The server of ``fetch``: --server, POLARSVC_SERVER, the recorded address, default."""
+    from polarsvc.serving import read_serving_record
+
+    if args.server:
+        return args.server
+    record = read_serving_record()
+    return (record.address if record is not None and record.address else None) or DEFAULT_SERVER
 
 
 def _local_actor():
@@ -74,11 +104,24 @@ def is_loopback(host: str) -> bool:
 
 
 # -- serve ---------------------------------------------------------------------------------
+def _serve_database_url(args: argparse.Namespace) -> str:
+    """The server's database: --database-url, else (demo) ./polarsvc-data/demo.db, else
+    POLARSVC_DATABASE_URL or ./polarsvc-data/polarsvc.db (never the record it writes)."""
+    from polarsvc.store.db import default_database_url
+
+    if args.database_url:
+        return args.database_url
+    if args.demo:
+        return f"sqlite:///{DEMO_DATABASE.resolve()}"
+    return os.environ.get("POLARSVC_DATABASE_URL") or default_database_url()
+
+
 def cmd_serve(args: argparse.Namespace) -> int:
     import uvicorn
 
     from polarsvc.api.app import create_app
     from polarsvc.api.settings import Settings
+    from polarsvc.serving import CannotServe, bind_listener, write_serving_record
 
     public_reads = args.public_reads or args.demo
     if public_reads and not is_loopback(args.host) and not args.read_only:
@@ -87,49 +130,79 @@ def cmd_serve(args: argparse.Namespace) -> int:
             "add --read-only, or listen on 127.0.0.1"
         )
         return 2
-    database_url = _database_url(args)
-    if args.demo and not args.database_url:
-        DEMO_DATABASE.parent.mkdir(parents=True, exist_ok=True)
-        for suffix in ("", "-wal", "-shm"):
-            Path(f"{DEMO_DATABASE}{suffix}").unlink(missing_ok=True)
-        database_url = f"sqlite:///{DEMO_DATABASE}"
-    settings = Settings.from_env(
-        database_url=database_url, public_reads=public_reads, read_only=args.read_only,
-        approved_only=args.approved_only or Settings.from_env().approved_only,
-    )
-    if args.demo:
-        secret = _prepare_demo(database_url)
-        _stderr(f"demo database: {database_url} (fresh; demo data loaded, public reads on)")
-        _stderr(f"one-time local admin token (shown once, not stored in clear): {secret}")
-    _stderr(f"polarsvc {__version__} on http://{args.host}:{args.port}/ "
-            f"(API docs: http://{args.host}:{args.port}/api/v1/docs)")
-    uvicorn.run(create_app(settings), host=args.host, port=args.port, log_level=args.log_level)
+    if args.fresh and (not args.demo or args.database_url):
+        _stderr("--fresh starts the demo database ./polarsvc-data/demo.db anew: it needs "
+                "--demo and no --database-url")
+        return 2
+    try:
+        listener = bind_listener(args.host, args.port)
+    except CannotServe as exc:
+        _stderr(f"polarsvc serve: {exc}")
+        return EXIT_CANNOT_SERVE
+    try:
+        database_url = _serve_database_url(args)
+        settings = Settings.from_env(
+            database_url=database_url, public_reads=public_reads, read_only=args.read_only,
+            approved_only=args.approved_only or Settings.from_env().approved_only,
+        )
+        secret = None
+        if args.demo:
+            secret, state = _prepare_demo(database_url, fresh=args.fresh)
+            _stderr(f"demo database: {database_url} ({state}; public reads on)")
+        address = f"http://{args.host}:{args.port}"
+        write_serving_record(database_url=database_url, address=address, demo=args.demo)
+        if secret is not None:
+            _stderr(f"one-time local admin token (shown once, not stored in clear): {secret}")
+        _stderr(f"polarsvc {__version__} on {address}/ (API docs: {address}/api/v1/docs)")
+        config = uvicorn.Config(
+            create_app(settings), host=args.host, port=args.port, log_level=args.log_level
+        )
+        uvicorn.Server(config).run(sockets=[listener])
+    finally:
+        listener.close()
     return 0
 
 
-def _prepare_demo(database_url: str) -> str:
+def _prepare_demo(database_url: str, *, fresh: bool) -> tuple[str, str]:
+    """Migrate the demo database, load the demo data into it when it holds no revisions
+    (a new file, or ``fresh``: the old file removed first), and create a one-time admin
+    token. Returns the token's secret and a description of the database's state."""
+    from sqlalchemy import select
     from sqlalchemy.orm import sessionmaker
 
     from polarsvc.ingest import load_demo
     from polarsvc.store import tokens as token_store
     from polarsvc.store.db import make_engine, session_scope, upgrade_database
+    from polarsvc.store.models import PolarRevision
 
+    if fresh:
+        for suffix in ("", "-wal", "-shm"):
+            Path(f"{DEMO_DATABASE}{suffix}").unlink(missing_ok=True)
+    DEMO_DATABASE.parent.mkdir(parents=True, exist_ok=True)
     engine = make_engine(database_url)
-    upgrade_database(engine)
-    factory = sessionmaker(engine, expire_on_commit=False)
-    actor = _local_actor()
-    seed_dir = next((d for d in SEED_DIRS if (d / "family.json").is_file()), None)
-    if seed_dir is None:
-        raise FileNotFoundError(
-            "demo data not found (looked in " + ", ".join(str(d) for d in SEED_DIRS) + "); "
-            "run from a checkout of polarsvc"
-        )
-    load_demo(factory, seed_dir, actor=actor)
-    name = "demo-admin-" + dt.datetime.now(dt.UTC).strftime("%Y%m%dT%H%M%S")
-    with session_scope(factory, write=True) as session:
-        _, secret = token_store.create_token(session, name=name, role="admin", actor=actor)
-    engine.dispose()
-    return secret
+    try:
+        upgrade_database(engine)
+        factory = sessionmaker(engine, expire_on_commit=False)
+        actor = _local_actor()
+        with session_scope(factory, write=False) as session:
+            empty = session.scalar(select(PolarRevision.id).limit(1)) is None
+        if empty:
+            seed_dir = next((d for d in SEED_DIRS if (d / "family.json").is_file()), None)
+            if seed_dir is None:
+                raise FileNotFoundError(
+                    "demo data not found (looked in " + ", ".join(str(d) for d in SEED_DIRS)
+                    + "); run from a checkout of polarsvc"
+                )
+            load_demo(factory, seed_dir, actor=actor)
+            state = "fresh; demo data loaded"
+        else:
+            state = "kept from the last run with everything stored since; --fresh starts anew"
+        name = "demo-admin-" + dt.datetime.now(dt.UTC).strftime("%Y%m%dT%H%M%S.%f")
+        with session_scope(factory, write=True) as session:
+            _, secret = token_store.create_token(session, name=name, role="admin", actor=actor)
+    finally:
+        engine.dispose()
+    return secret, state
 
 
 # -- db ------------------------------------------------------------------------------------
@@ -221,7 +294,7 @@ def cmd_export(args: argparse.Namespace) -> int:
 def cmd_fetch(args: argparse.Namespace) -> int:
     import httpx
 
-    server = args.server.rstrip("/") + "/api/v1"
+    server = _server_address(args).rstrip("/") + "/api/v1"
     params: dict[str, Any] = {"format": args.format}
     for item in args.param or []:
         key, sep, value = item.partition("=")
@@ -329,7 +402,7 @@ def cmd_lineage(args: argparse.Namespace) -> int:
 
     factory = _factory(args)
     with session_scope(factory, write=False) as session:
-        tree = lineage.derived_node(session, pipeline.find_derived(session, args.key))
+        tree = lineage.lineage_of(session, pipeline.find_derived_all(session, args.key))
     if args.json:
         print(json.dumps(tree, indent=1))
     else:
@@ -498,16 +571,20 @@ def build_parser() -> argparse.ArgumentParser:
         description="Section polar store and service for rotor work.",
     )
     parser.add_argument("--version", action="version", version=f"polarsvc {__version__}")
-    parser.add_argument("--database-url", help="SQLAlchemy URL (default: POLARSVC_DATABASE_URL "
-                        "or ./polarsvc-data/polarsvc.db)")
+    parser.add_argument("--database-url", help="SQLAlchemy URL (default: POLARSVC_DATABASE_URL, "
+                        "else the database `polarsvc serve` recorded in ./polarsvc-data/"
+                        "serving.json, else ./polarsvc-data/polarsvc.db)")
     commands = parser.add_subparsers(dest="command", required=True)
 
     serve = commands.add_parser("serve", help="run the HTTP service")
     serve.add_argument("--host", default="127.0.0.1", help="listen address (default loopback)")
     serve.add_argument("--port", type=int, default=8000)
     serve.add_argument("--demo", action="store_true",
-                       help="fresh demo database with the demo data; public reads; prints a "
-                       "one-time admin token")
+                       help="serve ./polarsvc-data/demo.db (the demo data loaded on first "
+                       "start, kept across restarts); public reads; prints a one-time admin "
+                       "token")
+    serve.add_argument("--fresh", action="store_true",
+                       help="with --demo: start the demo database anew")
     serve.add_argument("--public-reads", action="store_true", help="serve reads without a token")
     serve.add_argument("--read-only", action="store_true", help="refuse every write")
     serve.add_argument("--approved-only", action="store_true",
@@ -541,10 +618,13 @@ def build_parser() -> argparse.ArgumentParser:
     fetch.add_argument("what", choices=("blade", "performance", "blend", "extended",
                                         "augmented", "resampled", "derived"))
     fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
-    fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER",
-                                                          "http://127.0.0.1:8000"))
+    fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER"),
+                       help="server address (default: POLARSVC_SERVER, else the address "
+                       "`polarsvc serve` recorded here, else http://127.0.0.1:8000)")
     fetch.add_argument("--token", default=os.environ.get("POLARSVC_TOKEN"))
-    fetch.add_argument("--format", choices=("json", "csv", "bin"), default="csv")
+    fetch.add_argument(
+        "--format", choices=("json", "csv", "bin", "arrow", "npz"), default="csv"
+    )
     fetch.add_argument("--thickness", type=float, help="blend: t/c as a fraction")
     fetch.add_argument("--reynolds", type=float, help="blend: Reynolds number")
     fetch.add_argument("--param", action="append", metavar="KEY=VALUE",

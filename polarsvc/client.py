@@ -27,7 +27,16 @@ import httpx
 import numpy as np
 
 from polarsvc.aero import Polar
-from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
+from polarsvc.formats.binary import (
+    ARROW_AVAILABLE,
+    ARROW_MEDIA_TYPE,
+    NPZ_MEDIA_TYPE,
+    BinaryTable,
+    decode_arrays_arrow,
+    decode_arrays_npz,
+    decode_arrow,
+    decode_npz,
+)
 
 __all__ = [
     "AuthError",
@@ -147,13 +156,23 @@ def _raise_for(response: httpx.Response) -> None:
     raise ServiceError(response.status_code, detail)
 
 
-def _table_from_binary(payload: bytes) -> DerivedTable:
-    arrays, meta = decode_binary(payload)
+def _table_from_binary(payload: bytes, media_type: str) -> DerivedTable:
+    """Decode an Arrow IPC stream or an .npz archive, by the answer's media type."""
+    decoded: BinaryTable
+    if media_type.startswith(ARROW_MEDIA_TYPE):
+        decoded = decode_arrow(payload)
+    elif media_type.startswith(NPZ_MEDIA_TYPE):
+        decoded = decode_npz(payload)
+    else:
+        raise ClientError(f"unexpected table media type {media_type!r}")
+    meta = dict(decoded.meta)
+    if decoded.radius_m is not None:
+        meta.setdefault("radius_m", decoded.radius_m.tolist())
     return DerivedTable(
-        alpha_deg=arrays["alpha_deg"],
-        cl=arrays["cl"],
-        cd=arrays["cd"],
-        cm=arrays.get("cm"),
+        alpha_deg=decoded.alpha_deg,
+        cl=decoded.columns["cl"],
+        cd=decoded.columns["cd"],
+        cm=decoded.columns.get("cm"),
         meta=meta,
     )
 
@@ -206,11 +225,15 @@ class PolarClient:
         return response.json()
 
     def _get_table(self, path: str, **params: Any) -> DerivedTable:
+        # Arrow IPC when pyarrow is installed here (the server falls back to .npz when it
+        # lacks pyarrow), else .npz
+        fmt = "bin" if ARROW_AVAILABLE else "npz"
+        accept = f"{ARROW_MEDIA_TYPE}, {NPZ_MEDIA_TYPE}" if ARROW_AVAILABLE else NPZ_MEDIA_TYPE
         response = self._http.get(
-            path, params=_clean({**params, "format": "bin"}), headers={"Accept": BINARY_MEDIA_TYPE}
+            path, params=_clean({**params, "format": fmt}), headers={"Accept": accept}
         )
         _raise_for(response)
-        return _table_from_binary(response.content)
+        return _table_from_binary(response.content, response.headers.get("content-type", ""))
 
     # -- catalogue -------------------------------------------------------------------------
     def families(self) -> list[dict[str, Any]]:
@@ -267,12 +290,18 @@ class PolarClient:
         :meth:`blade_set` and the rotor parameters of ``GET /blades/{key}/performance``,
         e.g. ``rotation_model="none"``, ``rated_power_w=2.5e6``, ``weibull_k=[2.0]``,
         ``weibull_a_m_s=[9.0]``)."""
+        fmt = "bin" if ARROW_AVAILABLE else "npz"
         response = self._http.get(
-            f"/blades/{blade}/performance", params=_clean({**params, "format": "bin"}),
-            headers={"Accept": BINARY_MEDIA_TYPE},
+            f"/blades/{blade}/performance", params=_clean({**params, "format": fmt}),
         )
         _raise_for(response)
-        arrays, meta = decode_binary(response.content)
+        media_type = response.headers.get("content-type", "")
+        if media_type.startswith(ARROW_MEDIA_TYPE):
+            arrays, meta = decode_arrays_arrow(response.content)
+        elif media_type.startswith(NPZ_MEDIA_TYPE):
+            arrays, meta = decode_arrays_npz(response.content)
+        else:
+            raise ClientError(f"unexpected result media type {media_type!r}")
         return RotorPerformance(arrays=dict(arrays), meta=meta)
 
     def compare_performance(self, a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:

@@ -10,6 +10,7 @@ and the blade definition revision for a blade set.
 from __future__ import annotations
 
 import json
+from collections.abc import Sequence
 from typing import Any
 
 from sqlalchemy import select
@@ -130,8 +131,33 @@ def derived_node(session: Session, row: DerivedTable) -> dict[str, Any]:
     return node
 
 
+def lineage_of(session: Session, rows: Sequence[DerivedTable]) -> dict[str, Any]:
+    """The lineage of the tables a hash named: the tree of one table, or, for a content hash
+    that several recipes gave, a ``content`` node listing each recipe's tree (oldest
+    first)."""
+    if len(rows) == 1:
+        return derived_node(session, rows[0])
+    return {
+        "node": "content",
+        "content_hash": rows[0].content_hash,
+        "recipes": [derived_node(session, row) for row in rows],
+    }
+
+
 def lineage_text(tree: dict[str, Any]) -> str:
     """The lineage tree as readable text (for the command line and plain-text answers)."""
+    if tree.get("node") == "content":
+        parts = [
+            f"table {tree['content_hash']} is given by {len(tree['recipes'])} recipes "
+            "(the same numbers):\n"
+        ]
+        for number, recipe_tree in enumerate(tree["recipes"], start=1):
+            parts.append(f"\n[{number}] " + _derived_text(recipe_tree))
+        return "".join(parts)
+    return _derived_text(tree)
+
+
+def _derived_text(tree: dict[str, Any]) -> str:
     software = tree.get("software") or {}
     lines = [
         f"{tree['kind']} table {tree['content_hash']}",

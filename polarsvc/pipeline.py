@@ -262,9 +262,9 @@ def compute_and_store(
         family_cache=PREPARED_FAMILIES.get,
         load_derived=load_derived,
     )
-    reports = orjson.loads(
-        orjson.dumps(result.reports, option=orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS)
-    )
+    # the reports are served as computed (orjson encodes numpy values in responses) and
+    # stored as JSON text once, by put_derived: no encode-decode round trip on a miss
+    reports = dict(result.reports)
     with session_scope(factory, write=True) as session:
         row, created = derived_store.put_derived(
             session,
@@ -571,16 +571,30 @@ def _looks_like_hash(key: str) -> bool:
 # -- stored derived tables: lookup, lineage, verification --------------------------------
 def find_derived(session: Session, key: str) -> DerivedTable:
     """A cached derived table by recipe hash or content hash (full, or a unique prefix of
-    at least 8 hex digits)."""
+    at least 8 hex digits); of several recipes sharing a content hash, the oldest."""
     return derived_store.find_derived(session, key)
 
 
+def find_derived_all(session: Session, key: str) -> list[DerivedTable]:
+    """Every cached table a recipe or content hash names (see
+    :func:`polarsvc.store.derived.find_derived_all`)."""
+    return derived_store.find_derived_all(session, key)
+
+
 def stored_table(factory: sessionmaker[Session], key: str) -> ServedTable:
-    """A cached derived table as stored (no recomputation)."""
+    """A cached derived table as stored (no recomputation). When several recipes gave the
+    same content, the oldest one's recipe is served and ``same_content_recipes`` lists
+    every recipe hash."""
     with session_scope(factory, write=False) as session:
-        row = find_derived(session, key)
+        rows = find_derived_all(session, key)
+        row = rows[0]
         inputs = [_summary(r) for r in row.inputs]
-        return _from_row(row, inputs, _blade_info(row.blade), cached=True)
+        served = _from_row(row, inputs, _blade_info(row.blade), cached=True)
+    if len(rows) > 1:
+        served = dataclasses.replace(
+            served, extra={"same_content_recipes": [r.recipe_hash for r in rows]}
+        )
+    return served
 
 
 def verify_derived(factory: sessionmaker[Session], key: str) -> dict[str, Any]:
@@ -588,9 +602,29 @@ def verify_derived(factory: sessionmaker[Session], key: str) -> dict[str, Any]:
 
     Reports whether the recomputed content hash equals the stored one, and whether every
     stored input still hashes to its recorded revision hash (a tampered input fails).
+    A content hash shared by several recipes checks each: the answer then holds
+    ``stored_content_hash``, ``matches`` (all of them), ``problems`` (each prefixed by its
+    recipe hash) and ``recipes`` (one report per recipe, oldest first).
     """
     with session_scope(factory, write=False) as session:
-        row = find_derived(session, key)
+        recipe_hashes = [row.recipe_hash for row in find_derived_all(session, key)]
+    reports = [_verify_recipe(factory, recipe_hash) for recipe_hash in recipe_hashes]
+    if len(reports) == 1:
+        return reports[0]
+    return {
+        "stored_content_hash": reports[0]["stored_content_hash"],
+        "matches": all(r["matches"] for r in reports),
+        "problems": [f"recipe {r['recipe_hash']}: {p}" for r in reports for p in r["problems"]],
+        "recipes": reports,
+    }
+
+
+def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str, Any]:
+    """Verification of the one cached table of ``recipe_hash``."""
+    with session_scope(factory, write=False) as session:
+        row = derived_store.get_derived(session, recipe_hash=recipe_hash)
+        if row is None:
+            raise NotFound("derived table", recipe_hash)
         recipe = derived_store.derived_recipe(row)
         problems: list[str] = []
         polars = {}

@@ -30,8 +30,11 @@ A curated store of airfoil section polars with provenance, serving full-range
 (-180..180 deg), rotationally augmented and Reynolds/thickness-interpolated tables to rotor
 solvers. Every derived table carries its recipe and a content hash (also the ETag).
 
-Tables come as JSON (default), CSV (`format=csv` or `Accept: text/csv`) or a compact binary
-form (`format=bin` or `Accept: application/vnd.polarsvc.table`).
+Tables come as JSON (default), CSV (`format=csv` or `Accept: text/csv`) or a binary form:
+Apache Arrow IPC stream (`format=arrow` or `Accept: application/vnd.apache.arrow.stream`;
+the response metadata is in the schema metadata `polarsvc.meta`) or a NumPy `.npz` archive
+(`format=npz` or `Accept: application/x-npz`). `format=bin` gives Arrow where the server has
+pyarrow installed (the `arrow` extra), else `.npz`.
 
 **Caution.** {CAUTION}
 """

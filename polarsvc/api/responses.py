@@ -1,15 +1,11 @@
-"""Fast table responses: JSON through orjson, CSV, and a compact binary array form;
-ETag and 304 handling.
+"""Fast table responses: JSON through orjson, CSV, and a binary form (Apache Arrow IPC,
+or NumPy .npz where pyarrow is not installed; :mod:`polarsvc.formats.binary`); ETag and 304
+handling.
 
 Large tables never pass through the standard-library JSON encoder or per-element
-validation: handlers hand numpy arrays to :func:`table_response`, which encodes them once.
-
-Binary form (media type :data:`BINARY_MEDIA_TYPE`), all little-endian::
-
-    magic   6 bytes  b"PSVTB1"
-    n       uint32   length of the JSON header in bytes
-    header  n bytes  UTF-8 JSON: {"arrays": [{"name", "shape", "offset"}...], "meta": {...}}
-    data             float64 arrays, C order, at the byte offsets given (from the data start)
+validation: handlers hand numpy arrays to :func:`table_response`, which encodes the arrays
+once per content hash and keeps the result in :data:`ENCODED`; only the small metadata
+around them is encoded per request.
 
 Non-finite values: JSON writes NaN as null (orjson); the stored tables never hold NaN.
 """
@@ -17,8 +13,6 @@ Non-finite values: JSON writes NaN as null (orjson); the stored tables never hol
 from __future__ import annotations
 
 import hashlib
-import io
-import struct
 from collections.abc import Mapping
 from typing import Any
 
@@ -27,14 +21,25 @@ import orjson
 from fastapi import Request
 from fastapi.responses import Response
 
-from polarsvc.formats import table_to_csv
+from polarsvc.formats import csv_comment_lines, encode_rows, table_csv_rows
+from polarsvc.formats.binary import (
+    ARROW_AVAILABLE,
+    ARROW_MEDIA_TYPE,
+    NPZ_MEDIA_TYPE,
+    arrays_arrow_table,
+    arrow_table,
+    encode_arrays_npz,
+    encode_npz,
+    write_arrow,
+)
 from polarsvc.lru import LruCache
 
 JSON_MEDIA_TYPE = "application/json"
 CSV_MEDIA_TYPE = "text/csv; charset=utf-8"
-BINARY_MEDIA_TYPE = "application/vnd.polarsvc.table"
-BINARY_MAGIC = b"PSVTB1"
-FORMATS = ("json", "csv", "bin")
+FORMATS = ("json", "csv", "bin", "arrow", "npz")
+"""Response formats; ``bin`` is the binary form this server has: ``arrow`` when pyarrow is
+installed, else ``npz``."""
+BINARY_MEDIA_TYPES = {"arrow": ARROW_MEDIA_TYPE, "npz": NPZ_MEDIA_TYPE}
 
 ORJSON_OPTIONS = orjson.OPT_SERIALIZE_NUMPY | orjson.OPT_NON_STR_KEYS
 
@@ -56,61 +61,92 @@ def json_response(obj: Any, *, status_code: int = 200, headers: Mapping[str, str
     )
 
 
+def binary_format() -> str:
+    """The binary form this server writes for ``format=bin``: arrow, else npz."""
+    return "arrow" if ARROW_AVAILABLE else "npz"
+
+
+def page_response(
+    request: Request, items: list[Any], *, next_cursor: str | None, total: int | None
+) -> Response:
+    """A JSON list (one page of a listing) with ``X-Total-Count`` (all matching items) and,
+    unless this is the last page, ``Link: <url>; rel="next"`` (RFC 8288): the same request
+    with ``after`` set to the next page's cursor."""
+    headers: dict[str, str] = {}
+    if total is not None:
+        headers["X-Total-Count"] = str(total)
+    if next_cursor is not None:
+        headers["Link"] = f'<{request.url.include_query_params(after=next_cursor)}>; rel="next"'
+    return json_response(items, headers=headers)
+
+
 def choose_format(request: Request, explicit: str | None) -> str:
-    """The response format: the ``format`` query parameter, else the Accept header, else JSON."""
+    """The response format: the ``format`` query parameter, else the Accept header, else
+    JSON. ``bin`` resolves to :func:`binary_format`.
+
+    Raises
+    ------
+    FormatChoiceError
+        On an unknown format, or ``arrow`` on a server without pyarrow.
+    """
     if explicit:
         if explicit not in FORMATS:
             raise FormatChoiceError(
                 f"format={explicit!r} is not known; valid formats: {', '.join(FORMATS)}"
             )
-        return explicit
-    accept = request.headers.get("accept", "")
-    if BINARY_MEDIA_TYPE in accept:
-        return "bin"
-    if "text/csv" in accept:
-        return "csv"
-    return "json"
-
-
-def _pack_arrays(arrays: Mapping[str, np.ndarray]) -> tuple[list[dict[str, Any]], bytes]:
-    entries = []
-    chunks = []
-    offset = 0
-    for name, array in arrays.items():
-        data = np.ascontiguousarray(array, dtype="<f8")
-        entries.append({"name": name, "shape": list(data.shape), "offset": offset})
-        chunks.append(data.tobytes())
-        offset += data.nbytes
-    return entries, b"".join(chunks)
-
-
-def _binary_body(entries: list[dict[str, Any]], data: bytes, meta: Mapping[str, Any]) -> bytes:
-    header = dumps({"arrays": entries, "meta": meta})
-    return b"".join([BINARY_MAGIC, struct.pack("<I", len(header)), header, data])
-
-
-def encode_binary(arrays: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> bytes:
-    """Pack named float64 arrays and a JSON-able ``meta`` mapping into the binary form."""
-    entries, data = _pack_arrays(arrays)
-    return _binary_body(entries, data, meta)
-
-
-def decode_binary(payload: bytes) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
-    """Inverse of :func:`encode_binary`: (arrays, meta)."""
-    if payload[: len(BINARY_MAGIC)] != BINARY_MAGIC:
-        raise ValueError("not a polarsvc binary table (bad magic bytes)")
-    start = len(BINARY_MAGIC)
-    (header_length,) = struct.unpack_from("<I", payload, start)
-    header = orjson.loads(payload[start + 4 : start + 4 + header_length])
-    data_start = start + 4 + header_length
-    arrays = {}
-    for entry in header["arrays"]:
-        count = int(np.prod(entry["shape"])) if entry["shape"] else 1
-        array = np.frombuffer(
-            payload, dtype="<f8", count=count, offset=data_start + entry["offset"]
+        chosen = explicit
+    else:
+        accept = request.headers.get("accept", "")
+        if ARROW_MEDIA_TYPE in accept and ARROW_AVAILABLE:
+            chosen = "arrow"
+        elif NPZ_MEDIA_TYPE in accept:
+            chosen = "npz"
+        elif ARROW_MEDIA_TYPE in accept:
+            chosen = "npz"  # asked for Arrow on a server without pyarrow: the fallback
+        elif "text/csv" in accept:
+            chosen = "csv"
+        else:
+            chosen = "json"
+    if chosen == "bin":
+        return binary_format()
+    if chosen == "arrow" and not ARROW_AVAILABLE:
+        raise FormatChoiceError(
+            "format='arrow' needs pyarrow on the server; use format=npz or format=bin"
         )
-        arrays[entry["name"]] = array.reshape(entry["shape"])
-    return arrays, header["meta"]
+    return chosen
+
+
+def csv_rows(
+    alpha_deg: np.ndarray,
+    columns: Mapping[str, np.ndarray],
+    *,
+    stations_radius_m: list[float] | None = None,
+) -> bytes:
+    """The column header and data lines of a table as CSV (no comment lines).
+
+    One-dimensional columns give ``alpha_deg,<name>...`` rows. Two-dimensional columns
+    (stations x angles) give the long layout ``radius_m,alpha_deg,<name>...`` of
+    :func:`polarsvc.formats.table_to_csv`.
+    """
+    first = next(iter(columns.values()))
+    if np.ndim(first) == 2:
+        return table_csv_rows(
+            alpha_deg, columns, stations=stations_radius_m,
+            station_column="radius_m" if stations_radius_m is not None else "station",
+        )
+    header = ",".join(["alpha_deg", *columns]) + "\n"
+    stacked = np.column_stack([np.asarray(alpha_deg, dtype=np.float64), *columns.values()])
+    return header.encode("utf-8") + encode_rows(stacked)
+
+
+def csv_comments(meta: Mapping[str, Any]) -> bytes:
+    """The scalar entries of a response's metadata as ``# key: value`` lines."""
+    comments = {
+        key: (str(value).lower() if isinstance(value, bool) else value)
+        for key, value in meta.items()
+        if isinstance(value, str | int | float)
+    }
+    return csv_comment_lines(comments).encode("utf-8")
 
 
 def encode_csv(
@@ -120,35 +156,10 @@ def encode_csv(
     comments: Mapping[str, Any] | None = None,
     stations_radius_m: list[float] | None = None,
 ) -> bytes:
-    """Tables as CSV with ``# key: value`` comment lines first.
-
-    One-dimensional columns give ``alpha_deg,<name>...`` rows. Two-dimensional columns
-    (stations x angles) give the long layout ``radius_m,alpha_deg,<name>...`` of
-    :func:`polarsvc.formats.table_to_csv`.
-    """
-    first = next(iter(columns.values()))
-    if np.ndim(first) == 2:
-        text = table_to_csv(
-            alpha_deg, columns, header_comments=comments, stations=stations_radius_m,
-            station_column="radius_m" if stations_radius_m is not None else "station",
-        )
-        return text.encode("utf-8")
-    return encode_rows_csv({"alpha_deg": alpha_deg, **columns}, comments=comments)
-
-
-def encode_rows_csv(
-    columns: Mapping[str, np.ndarray], *, comments: Mapping[str, Any] | None = None
-) -> bytes:
-    """One-dimensional columns of one length as CSV rows (``repr`` floats), with
-    ``# key: value`` comment lines first."""
-    buffer = io.StringIO()
-    for key, value in (comments or {}).items():
-        buffer.write(f"# {key}: {value}\n")
-    buffer.write(",".join(columns) + "\n")
-    stacked = np.column_stack([np.asarray(v, dtype=np.float64) for v in columns.values()])
-    for row in stacked.tolist():
-        buffer.write(",".join(repr(v) for v in row) + "\n")
-    return buffer.getvalue().encode("utf-8")
+    """Tables as CSV with ``# key: value`` comment lines first (see :func:`csv_rows`)."""
+    return csv_comment_lines(comments).encode("utf-8") + csv_rows(
+        alpha_deg, columns, stations_radius_m=stations_radius_m
+    )
 
 
 def etag_for(content_hash: str, fmt: str) -> str:
@@ -175,13 +186,16 @@ def etag_matches(request: Request, etag: str) -> bool:
 def _encoded_size(value: object) -> int:
     if isinstance(value, bytes):
         return len(value)
-    entries_and_data = value
-    return len(entries_and_data[1])  # type: ignore[index]
+    return int(getattr(value, "nbytes", 0))
 
 
-ENCODED: LruCache[Any] = LruCache(max_entries=256, max_size=256 * 2**20, size_of=_encoded_size)
-"""Encoded array bodies of derived tables by (content hash, format): a table is immutable
-under its content hash, so only the small metadata around it is encoded per request."""
+ENCODED_MAX_BYTES = 192 * 2**20
+ENCODED: LruCache[Any] = LruCache(
+    max_entries=512, max_size=ENCODED_MAX_BYTES, size_of=_encoded_size
+)
+"""Encoded array bodies of tables by (content hash, format, station radii): a table is
+immutable under its content hash, so only the small metadata around it is encoded per
+request. Bounded in bytes."""
 
 
 def _json_arrays(alpha_deg: np.ndarray, columns: Mapping[str, np.ndarray]) -> bytes:
@@ -189,12 +203,11 @@ def _json_arrays(alpha_deg: np.ndarray, columns: Mapping[str, np.ndarray]) -> by
     return dumps({"alpha_deg": np.ascontiguousarray(alpha_deg), **arrays})
 
 
-def _csv_comments(meta: Mapping[str, Any]) -> dict[str, Any]:
-    return {
-        key: (str(value).lower() if isinstance(value, bool) else value)
-        for key, value in meta.items()
-        if isinstance(value, str | int | float)
-    }
+def columns_csv_rows(columns: Mapping[str, np.ndarray]) -> bytes:
+    """Header and data lines of one-dimensional columns of one length (no comments)."""
+    header = ",".join(columns) + "\n"
+    stacked = np.column_stack([np.asarray(v, dtype=np.float64) for v in columns.values()])
+    return header.encode("utf-8") + encode_rows(stacked)
 
 
 def arrays_response(
@@ -209,25 +222,28 @@ def arrays_response(
     extra_headers: Mapping[str, str] | None = None,
 ) -> Response:
     """A result of named arrays of any shapes (a rotor result) in the chosen format, with
-    the ETag and 304 handling of :func:`table_response`. JSON and the binary form carry
-    every array; CSV carries ``csv_columns`` (one-dimensional, of one length), the part
-    ``csv_part`` of the result."""
+    the ETag and 304 handling of :func:`table_response`. JSON, Arrow and .npz carry every
+    array (the named-array layout of :mod:`polarsvc.formats.binary`); CSV carries
+    ``csv_columns`` (one-dimensional, of one length), the part ``csv_part`` of the result."""
     meta_bytes = dumps(meta)
     tag = f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}"
-    etag = etag_for(tag, fmt if fmt != "csv" else f"csv-{csv_part}")
+    representation = fmt if fmt != "csv" else f"csv-{csv_part}"
+    etag = etag_for(tag, representation)
     headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
     if etag_matches(request, etag):
         return Response(status_code=304, headers=headers)
-    if fmt == "bin":
-        entries, data = ENCODED.get((content_hash, "bin"), lambda: _pack_arrays(arrays))
-        return Response(_binary_body(entries, data, meta), media_type=BINARY_MEDIA_TYPE,
+    key = (content_hash, representation, "arrays")
+    if fmt == "arrow":
+        table = ENCODED.get(key, lambda: arrays_arrow_table(arrays))
+        return Response(write_arrow(table, meta), media_type=ARROW_MEDIA_TYPE, headers=headers)
+    if fmt == "npz":
+        return Response(encode_arrays_npz(arrays, meta), media_type=NPZ_MEDIA_TYPE,
                         headers=headers)
     if fmt == "csv":
-        body = encode_rows_csv(csv_columns, comments=_csv_comments(meta))
-        return Response(body, media_type=CSV_MEDIA_TYPE, headers=headers)
+        rows = ENCODED.get(key, lambda: columns_csv_rows(csv_columns))
+        return Response(csv_comments(meta) + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
     arrays_json = ENCODED.get(
-        (content_hash, "json"),
-        lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()}),
+        key, lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()})
     )
     body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
     return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)
@@ -256,17 +272,23 @@ def table_response(
     headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
     if etag_matches(request, etag):
         return Response(status_code=304, headers=headers)
-    if fmt == "bin":
-        entries, data = ENCODED.get(
-            (content_hash, "bin"), lambda: _pack_arrays({"alpha_deg": alpha_deg, **columns})
-        )
-        body = _binary_body(entries, data, meta)
-        return Response(body, media_type=BINARY_MEDIA_TYPE, headers=headers)
+    radii_key = None if stations_radius_m is None else np.asarray(
+        stations_radius_m, dtype=np.float64
+    ).tobytes()
+    key = (content_hash, fmt, radii_key)
+    if fmt == "arrow":
+        table = ENCODED.get(key, lambda: arrow_table(
+            alpha_deg, columns, radius_m=stations_radius_m
+        ))
+        return Response(write_arrow(table, meta), media_type=ARROW_MEDIA_TYPE, headers=headers)
+    if fmt == "npz":
+        body = encode_npz(alpha_deg, columns, meta, radius_m=stations_radius_m)
+        return Response(body, media_type=NPZ_MEDIA_TYPE, headers=headers)
     if fmt == "csv":
-        body = encode_csv(
-            alpha_deg, columns, comments=_csv_comments(meta), stations_radius_m=stations_radius_m
-        )
-        return Response(body, media_type=CSV_MEDIA_TYPE, headers=headers)
-    arrays_json = ENCODED.get((content_hash, "json"), lambda: _json_arrays(alpha_deg, columns))
+        rows = ENCODED.get(key, lambda: csv_rows(
+            alpha_deg, columns, stations_radius_m=stations_radius_m
+        ))
+        return Response(csv_comments(meta) + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
+    arrays_json = ENCODED.get(key, lambda: _json_arrays(alpha_deg, columns))
     body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
     return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)

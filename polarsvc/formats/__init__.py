@@ -83,6 +83,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
+from polarsvc.formats.cells import encode_rows
 from polarsvc.formats.errors import FormatError, shown
 from polarsvc.formats.jsondoc import parse_json_document
 from polarsvc.formats.metadata import (
@@ -93,7 +94,13 @@ from polarsvc.formats.metadata import (
     normalise_defaults,
 )
 from polarsvc.formats.text import COLUMN_NAMES, TEXT_LAYOUTS, parse_text_table
-from polarsvc.formats.writers import polar_to_csv, polar_to_json, table_to_csv
+from polarsvc.formats.writers import (
+    csv_comment_lines,
+    polar_to_csv,
+    polar_to_json,
+    table_csv_rows,
+    table_to_csv,
+)
 
 __all__ = [
     "COLUMN_NAMES",
@@ -103,9 +110,12 @@ __all__ = [
     "SOURCE_KINDS",
     "FormatError",
     "ParsedPolar",
+    "csv_comment_lines",
+    "encode_rows",
     "parse_polar_file",
     "polar_to_csv",
     "polar_to_json",
+    "table_csv_rows",
     "table_to_csv",
 ]
 

@@ -138,6 +138,10 @@ def normalise(key: str, value: object, *, line: int | None) -> object:
         return parse_thickness(value, line=line)
     if key in ("reynolds", "mach"):
         return _as_number(value, line=line, field=key)
+    if key == "measured_on" and isinstance(value, _dt.date) and not isinstance(
+        value, _dt.datetime
+    ):
+        return value.isoformat()  # a stored date, as the store hands it back
     text = _text(value, line=line, field=key)
     choices = _CHOICES.get(key)
     if choices is not None and text not in choices:

@@ -14,6 +14,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from polarsvc.aero import Polar
+from polarsvc.formats.cells import encode_station_blocks
 from polarsvc.formats.errors import FormatError
 from polarsvc.formats.metadata import PROVENANCE_KEYS, normalise
 
@@ -124,6 +125,73 @@ def polar_to_json(
     return document
 
 
+def _station_blocks(
+    alpha_deg: ArrayLike,
+    columns: Mapping[str, ArrayLike],
+    stations: Sequence[float] | ArrayLike | None,
+    station_column: str,
+) -> tuple[np.ndarray, dict[str, np.ndarray], list[str]]:
+    """Checked angle grid, 2-D coefficient blocks and station labels of a long table."""
+    alpha = np.asarray(alpha_deg, dtype=np.float64)
+    if alpha.ndim != 1:
+        raise FormatError(f"expected shape (n_alpha,), got {alpha.shape}", field="alpha_deg")
+    if not columns:
+        raise FormatError("at least one coefficient column is needed", field="columns")
+    blocks: dict[str, np.ndarray] = {}
+    for name, values in columns.items():
+        if not _KEY.fullmatch(name) or name in (station_column, "alpha_deg"):
+            raise FormatError("not a valid column name", field=name)
+        block = np.atleast_2d(np.asarray(values, dtype=np.float64))
+        if block.ndim != 2 or block.shape[1] != alpha.size:
+            raise FormatError(
+                f"expected shape (n_stations, {alpha.size}), got {block.shape}", field=name
+            )
+        blocks[name] = block
+    n_stations = {block.shape[0] for block in blocks.values()}
+    if len(n_stations) != 1:
+        raise FormatError(f"columns disagree on the station count {sorted(n_stations)}")
+    count = n_stations.pop()
+    values = np.arange(count) if stations is None else np.asarray(stations)
+    if values.shape != (count,):
+        raise FormatError(f"expected {count} station values, got {values.shape}", field="stations")
+    if not _KEY.fullmatch(station_column):
+        raise FormatError("not a valid column name", field="station_column")
+    labels = [
+        _number(label) if isinstance(label, float) else str(label) for label in values.tolist()
+    ]
+    return alpha, blocks, labels
+
+
+def csv_comment_lines(comments: Mapping[str, object] | None) -> str:
+    """``# key: value`` lines (each ending with a newline); keys are single words.
+
+    Raises
+    ------
+    FormatError
+        On a key that is not one word or a value that spans lines.
+    """
+    lines = []
+    for key, value in (comments or {}).items():
+        if not _KEY.fullmatch(key):
+            raise FormatError("a comment key is a single word", field=key)
+        lines.append(_comment(key, value) + "\n")
+    return "".join(lines)
+
+
+def table_csv_rows(
+    alpha_deg: ArrayLike,
+    columns: Mapping[str, ArrayLike],
+    *,
+    stations: Sequence[float] | ArrayLike | None = None,
+    station_column: str = "station",
+) -> bytes:
+    """The column header line and the data lines of :func:`table_to_csv` (no comments), as
+    UTF-8 bytes: the part that depends on the numbers only, so it can be cached by content."""
+    alpha, blocks, labels = _station_blocks(alpha_deg, columns, stations, station_column)
+    header = ",".join([station_column, "alpha_deg", *blocks]) + "\n"
+    return header.encode("utf-8") + encode_station_blocks(labels, alpha, list(blocks.values()))
+
+
 def table_to_csv(
     alpha_deg: ArrayLike,
     columns: Mapping[str, ArrayLike],
@@ -151,42 +219,8 @@ def table_to_csv(
     -------
     str
         Comment lines, the header ``station,alpha_deg,<columns>``, then rows ordered by
-        station, then angle.
+        station, then angle. Numbers are encoded whole arrays at a time
+        (:mod:`polarsvc.formats.cells`) and read back bit for bit.
     """
-    alpha = np.asarray(alpha_deg, dtype=np.float64)
-    if alpha.ndim != 1:
-        raise FormatError(f"expected shape (n_alpha,), got {alpha.shape}", field="alpha_deg")
-    if not columns:
-        raise FormatError("at least one coefficient column is needed", field="columns")
-    blocks: dict[str, np.ndarray] = {}
-    for name, values in columns.items():
-        if not _KEY.fullmatch(name) or name in (station_column, "alpha_deg"):
-            raise FormatError("not a valid column name", field=name)
-        block = np.atleast_2d(np.asarray(values, dtype=np.float64))
-        if block.ndim != 2 or block.shape[1] != alpha.size:
-            raise FormatError(
-                f"expected shape (n_stations, {alpha.size}), got {block.shape}", field=name
-            )
-        blocks[name] = block
-    n_stations = {block.shape[0] for block in blocks.values()}
-    if len(n_stations) != 1:
-        raise FormatError(f"columns disagree on the station count {sorted(n_stations)}")
-    count = n_stations.pop()
-    labels = np.arange(count) if stations is None else np.asarray(stations)
-    if labels.shape != (count,):
-        raise FormatError(f"expected {count} station values, got {labels.shape}", field="stations")
-    if not _KEY.fullmatch(station_column):
-        raise FormatError("not a valid column name", field="station_column")
-    lines = []
-    for key, value in (header_comments or {}).items():
-        if not _KEY.fullmatch(key):
-            raise FormatError("a comment key is a single word", field=key)
-        lines.append(_comment(key, value))
-    lines.append(",".join([station_column, "alpha_deg", *blocks]))
-    for index, label in enumerate(labels.tolist()):
-        station = _number(label) if isinstance(label, float) else str(label)
-        for position, angle in enumerate(alpha.tolist()):
-            cells = [station, _number(angle)]
-            cells.extend(_number(block[index, position]) for block in blocks.values())
-            lines.append(",".join(cells))
-    return "\n".join(lines) + "\n"
+    rows = table_csv_rows(alpha_deg, columns, stations=stations, station_column=station_column)
+    return csv_comment_lines(header_comments) + rows.decode("utf-8")

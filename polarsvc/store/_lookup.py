@@ -40,6 +40,37 @@ def escape_like(text: str) -> str:
     return text.replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
 
 
+HASH_DIGITS = 64
+
+
+def normalise_hash_key(key: object) -> str:
+    """A full hash or prefix in lower case.
+
+    Raises
+    ------
+    InvalidValue
+        If ``key`` is not hexadecimal, longer than a hash, or a prefix shorter than
+        :data:`MIN_PREFIX_LENGTH` digits.
+    """
+    normalised = key.strip().lower() if isinstance(key, str) else ""
+    if not _HEX.fullmatch(normalised) or len(normalised) > HASH_DIGITS:
+        raise InvalidValue("content_hash", f"{key!r} is not a hexadecimal hash or prefix")
+    if len(normalised) < MIN_PREFIX_LENGTH:
+        raise InvalidValue(
+            "content_hash", f"a prefix needs at least {MIN_PREFIX_LENGTH} digits, got {key!r}"
+        )
+    return normalised
+
+
+def hash_condition(column: Any, key: str) -> Any:
+    """``column`` equals the full hash ``key``, or starts with the prefix ``key``."""
+    normalised = normalise_hash_key(key)
+    if len(normalised) == HASH_DIGITS:
+        return column == normalised
+    # hexadecimal digits contain no LIKE wildcards, so no escaping is needed here
+    return column.like(normalised + "%")
+
+
 def find_by_hash(
     session: Session,
     model: type[Row],
@@ -64,18 +95,7 @@ def find_by_hash(
         If more than one row matches.
     """
     targets: list[Any] = [getattr(model, name) for name in columns]
-    normalised = key.strip().lower() if isinstance(key, str) else ""
-    if not _HEX.fullmatch(normalised) or len(normalised) > 64:
-        raise InvalidValue("content_hash", f"{key!r} is not a hexadecimal hash or prefix")
-    if len(normalised) == 64:
-        condition = or_(*(column == normalised for column in targets))
-    elif len(normalised) < MIN_PREFIX_LENGTH:
-        raise InvalidValue(
-            "content_hash", f"a prefix needs at least {MIN_PREFIX_LENGTH} digits, got {key!r}"
-        )
-    else:
-        # hexadecimal digits contain no LIKE wildcards, so no escaping is needed here
-        condition = or_(*(column.like(normalised + "%") for column in targets))
+    condition = or_(*(hash_condition(column, key) for column in targets))
     rows = session.scalars(select(model).where(condition).limit(2)).all()
     if not rows:
         raise NotFound(kind, key)

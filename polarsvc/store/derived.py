@@ -10,7 +10,7 @@ from typing import Any
 import numpy as np
 import orjson
 from numpy.typing import ArrayLike, NDArray
-from sqlalchemy import select
+from sqlalchemy import or_, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
@@ -23,9 +23,14 @@ from polarsvc.hashing import (
     result_content_hash,
     table_content_hash,
 )
-from polarsvc.store._lookup import check_choice, find_by_hash
+from polarsvc.store._lookup import (
+    HASH_DIGITS,
+    check_choice,
+    hash_condition,
+    normalise_hash_key,
+)
 from polarsvc.store.audit import Actor, record_event
-from polarsvc.store.errors import IntegrityProblem, InvalidValue, NotFound
+from polarsvc.store.errors import AmbiguousKey, IntegrityProblem, InvalidValue, NotFound
 from polarsvc.store.models import (
     DERIVED_KINDS,
     BladeDefinition,
@@ -182,17 +187,49 @@ def _reports_text(reports: Mapping[str, Any]) -> str:
 
 
 def find_derived(session: Session, key: str) -> DerivedTable:
-    """A cached table by recipe hash or content hash: the full hash or a unique prefix of at
-    least 8 digits.
+    """The cached table a key names (the oldest recipe, when a content hash is shared); see
+    :func:`find_derived_all`."""
+    return find_derived_all(session, key)[0]
+
+
+def find_derived_all(session: Session, key: str) -> list[DerivedTable]:
+    """Every cached table a recipe hash or content hash names, oldest first.
+
+    A recipe hash names one table. Several recipes can give the same content (a blend
+    inside the data range is the same with and without clamping), so a content hash names
+    every table of that content. ``key`` is the full hash or a prefix of at least 8 digits;
+    a prefix must name one recipe or one content.
 
     Raises
     ------
-    NotFound, AmbiguousKey, InvalidValue
-        Several recipes can give the same content: a content hash shared by two cached
-        tables is ambiguous, use the recipe hash.
+    NotFound
+        If nothing matches.
+    AmbiguousKey
+        If a prefix matches several recipes or contents.
+    InvalidValue
+        If ``key`` is not a hexadecimal hash or long enough prefix.
     """
-    return find_by_hash(
-        session, DerivedTable, "derived table", key, columns=("recipe_hash", "content_hash")
+    by_recipe = hash_condition(DerivedTable.recipe_hash, key)
+    by_content = hash_condition(DerivedTable.content_hash, key)
+    matches = session.execute(
+        select(DerivedTable.id, DerivedTable.recipe_hash, DerivedTable.content_hash)
+        .where(or_(by_recipe, by_content))
+        .order_by(DerivedTable.id)
+    ).all()
+    prefix = normalise_hash_key(key)
+    named = {("recipe", m.recipe_hash) for m in matches if m.recipe_hash.startswith(prefix)}
+    named |= {("content", m.content_hash) for m in matches if m.content_hash.startswith(prefix)}
+    if not matches:
+        raise NotFound("derived table", key)
+    recipe_names = sorted(name for kind, name in named if kind == "recipe")
+    if len(prefix) == HASH_DIGITS and recipe_names:
+        named = {("recipe", recipe_names[0])}  # a full recipe hash names its table
+    if len(named) > 1 and len({m.id for m in matches}) > 1:
+        raise AmbiguousKey("derived table", key, len(named))
+    kind, name = min(named)
+    column = DerivedTable.recipe_hash if kind == "recipe" else DerivedTable.content_hash
+    return list(
+        session.scalars(select(DerivedTable).where(column == name).order_by(DerivedTable.id))
     )
 
 

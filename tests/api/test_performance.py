@@ -10,7 +10,12 @@ import numpy as np
 import pytest
 
 from polarsvc import performance
-from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
+from polarsvc.formats.binary import (
+    ARROW_MEDIA_TYPE,
+    NPZ_MEDIA_TYPE,
+    decode_arrays_arrow,
+    decode_arrays_npz,
+)
 from polarsvc.rotor import HOURS_PER_YEAR
 
 URL = "/api/v1/blades/skerry-48/performance"
@@ -89,11 +94,18 @@ def test_formats_etag_and_cache(demo_client, tokens):
     unchanged = demo_client.get(URL, headers={**tokens.header("reader"),
                                               "If-None-Match": first.headers["etag"]})
     assert unchanged.status_code == 304
-    binary = get_performance(demo_client, tokens, format="bin")
-    assert binary.headers["content-type"] == BINARY_MEDIA_TYPE
-    arrays, meta = decode_binary(binary.content)
+    arrow = get_performance(demo_client, tokens, format="arrow")
+    assert arrow.headers["content-type"] == ARROW_MEDIA_TYPE
+    arrays, meta = decode_arrays_arrow(arrow.content)
     assert meta["content_hash"] == first.json()["content_hash"]
     np.testing.assert_array_equal(arrays["cp"], np.array(first.json()["cp"]))
+    assert arrays["normal_force_n_per_m"].shape == (len(first.json()["wind_speed_m_s"]), 20)
+    npz = get_performance(demo_client, tokens, format="npz")
+    assert npz.headers["content-type"] == NPZ_MEDIA_TYPE
+    arrays_npz, meta_npz = decode_arrays_npz(npz.content)
+    assert meta_npz["recipe_hash"] == first.json()["recipe_hash"]
+    for name, values in arrays.items():
+        np.testing.assert_array_equal(arrays_npz[name], values)
     curve = get_performance(demo_client, tokens, format="csv").text
     lines = [line for line in curve.splitlines() if not line.startswith("#")]
     assert lines[0].split(",") == list(performance.CURVE_COLUMNS)

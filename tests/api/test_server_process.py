@@ -115,3 +115,59 @@ def test_cli_fetch_writes_a_blade_set_file(demo_server, tmp_path):
     data = [x for x in lines if not x.startswith("#")]
     assert data[0] == "radius_m,alpha_deg,cl,cd,cm"
     assert len(data) == 1 + 20 * 721
+
+
+def run_cli(*arguments: str, cwd: Path, timeout: float = 120) -> subprocess.CompletedProcess:
+    """The command line as a user runs it: in the server's folder, no database named."""
+    env = {**os.environ}
+    env.pop("POLARSVC_DATABASE_URL", None)
+    env.pop("POLARSVC_SERVER", None)
+    return subprocess.run(
+        [sys.executable, "-m", "polarsvc.cli", *arguments], cwd=cwd, env=env,
+        capture_output=True, text=True, timeout=timeout,
+    )
+
+
+def test_cli_review_in_the_server_folder_acts_on_the_served_database(demo_server):
+    base, _, workdir = demo_server
+    listing = httpx.get(base + "/api/v1/polars",
+                        params={"airfoil": "SKUA-350", "surface": "rough"}).json()
+    revision = listing[0]["content_hash"]
+    result = run_cli("review", "deprecate", revision, "--reason", "kept for the record",
+                     cwd=workdir)
+    assert result.returncode == 0, result.stderr
+    assert f"{revision}: deprecated" in result.stdout
+    answer = httpx.get(base + f"/api/v1/polars/{revision}").json()
+    assert answer["review"]["state"] == "deprecated"
+    assert not (workdir / "polarsvc-data" / "polarsvc.db").exists()
+
+
+def test_a_second_server_on_a_busy_port_fails_before_printing_a_token(demo_server):
+    base, _, workdir = demo_server
+    port = base.rsplit(":", 1)[1]
+    result = run_cli("serve", "--demo", "--port", port, cwd=workdir, timeout=60)
+    assert result.returncode == 3
+    assert f"127.0.0.1:{port}" in result.stderr and "in use" in result.stderr
+    assert "token" not in result.stderr and "http://" not in result.stderr
+
+
+def test_client_gets_rotor_performance_as_arrays(demo_server):
+    base, _, _ = demo_server
+    with PolarClient(base) as client:
+        result = client.performance("skerry-48")
+        assert result["cp"].shape == (57, 15)
+        assert result["normal_force_n_per_m"].shape[1] == 20
+        assert result.rated_wind_speed_m_s is not None
+        assert set(result.annual_energy) >= {"IEC class I: Rayleigh, mean 10 m/s"}
+        assert "screening check" in result.meta["rotor_caution"]
+        assert client.verify(result.content_hash)["matches"] is True
+        tree = client.lineage(result.content_hash)
+        assert tree["blade_set"]["recipe_hash"] == result.meta["blade_set_recipe_hash"]
+        comparison = client.compare_performance(
+            {"blade": "skerry-48"}, {"blade": "skerry-48", "rotor": {"tip_loss": False}}
+        )
+        assert comparison["a"]["content_hash"] == result.content_hash
+        assert isinstance(comparison["power_curve"]["delta_w"], np.ndarray)
+        assert [d["parameter"] for d in comparison["differences"]["parameters"]] == [
+            "rotor.tip_loss"
+        ]

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 
 from polarsvc import aero
-from polarsvc.api.responses import BINARY_MEDIA_TYPE, decode_binary
 from polarsvc.formats import parse_polar_file
+from polarsvc.formats.binary import ARROW_MEDIA_TYPE, decode_arrow, decode_npz
 from tests.api.conftest import SEED_DIR
 
 
@@ -53,12 +53,12 @@ def test_etag_gives_304_and_formats_agree(demo_client, tokens):
                            ).status_code == 304
     assert demo_client.get(url, headers={**reader, "If-None-Match": '"other"'}
                            ).status_code == 200
-    as_bin = demo_client.get(url, headers={**reader, "Accept": BINARY_MEDIA_TYPE})
-    assert as_bin.headers["content-type"] == BINARY_MEDIA_TYPE
-    arrays, meta = decode_binary(as_bin.content)
+    as_bin = demo_client.get(url, headers={**reader, "Accept": ARROW_MEDIA_TYPE})
+    assert as_bin.headers["content-type"] == ARROW_MEDIA_TYPE
+    table = decode_arrow(as_bin.content)
     document = as_json.json()
-    assert meta["content_hash"] == document["content_hash"]
-    np.testing.assert_array_equal(arrays["cl"], document["cl"])
+    assert table.meta["content_hash"] == document["content_hash"]
+    np.testing.assert_array_equal(table.columns["cl"], document["cl"])
     as_csv = demo_client.get(url, params={"format": "csv"}, headers=reader)
     assert as_csv.headers["content-type"].startswith("text/csv")
     rows = [line for line in as_csv.text.splitlines() if line and not line.startswith("#")]
@@ -146,15 +146,18 @@ def test_blend_outside_the_family_refuses_unless_clamped(demo_client, tokens):
     assert clamped.json()["reports"]["section"]["reynolds_clamped"] is True
 
 
-@pytest.mark.parametrize("fmt", ["json", "csv", "bin"])
+@pytest.mark.parametrize("fmt", ["json", "csv", "bin", "arrow", "npz"])
 def test_blade_set_in_every_format(demo_client, tokens, fmt):
     response = demo_client.get("/api/v1/blades/skerry-48/tables", params={"format": fmt},
                                headers=tokens.header("reader"))
     assert response.status_code == 200
-    if fmt == "bin":
-        arrays, meta = decode_binary(response.content)
-        assert arrays["cl"].shape == (20, 721)
-        assert meta["blade"]["name"] == "skerry-48"
+    if fmt in ("bin", "arrow", "npz"):
+        decode = decode_npz if fmt == "npz" else decode_arrow
+        table = decode(response.content)
+        assert table.columns["cl"].shape == (20, 721)
+        assert table.meta["blade"]["name"] == "skerry-48"
+        radii = [s["radius_m"] for s in table.meta["reports"]["stations"]]
+        np.testing.assert_array_equal(table.radius_m, radii)
     elif fmt == "csv":
         lines = [x for x in response.text.splitlines() if not x.startswith("#")]
         assert lines[0] == "radius_m,alpha_deg,cl,cd,cm"
@@ -173,3 +176,40 @@ def test_unknown_things_answer_404_and_bad_methods_422(demo_client, tokens):
     bad_format = demo_client.get(f"/api/v1/polars/{key}/extended", params={"format": "xml"},
                                  headers=reader)
     assert bad_format.status_code == 400
+
+
+def test_without_pyarrow_the_binary_form_falls_back_to_npz(demo_client, tokens, monkeypatch):
+    from polarsvc.api import responses
+    from polarsvc.client import _table_from_binary
+    from polarsvc.formats.binary import NPZ_MEDIA_TYPE
+
+    monkeypatch.setattr(responses, "ARROW_AVAILABLE", False)
+    reader = tokens.header("reader")
+    url = "/api/v1/blades/skerry-48/tables"
+    as_bin = demo_client.get(url, params={"format": "bin"}, headers=reader)
+    assert as_bin.headers["content-type"] == NPZ_MEDIA_TYPE
+    by_accept = demo_client.get(url, headers={**reader, "Accept": ARROW_MEDIA_TYPE})
+    assert by_accept.headers["content-type"] == NPZ_MEDIA_TYPE
+    refused = demo_client.get(url, params={"format": "arrow"}, headers=reader)
+    assert refused.status_code == 400 and "pyarrow" in refused.json()["detail"]
+    table = _table_from_binary(as_bin.content, NPZ_MEDIA_TYPE)
+    document = demo_client.get(url, headers=reader).json()
+    np.testing.assert_array_equal(table.cl, document["cl"])
+    assert table.content_hash == document["content_hash"]
+
+
+def test_csv_body_is_cached_and_identical_on_a_hit(demo_client, tokens):
+    from polarsvc.api import responses
+
+    reader = tokens.header("reader")
+    url = "/api/v1/blades/skerry-48/tables"
+    first = demo_client.get(url, params={"format": "csv"}, headers=reader)
+    keys = [key for key in responses.ENCODED._items if key[1] == "csv"]
+    assert keys, "the CSV rows were not cached"
+    second = demo_client.get(url, params={"format": "csv"}, headers=reader)
+    assert second.content == first.content
+    document = demo_client.get(url, headers=reader).json()
+    # reference reader: numpy.loadtxt
+    lines = [x for x in first.text.splitlines() if not x.startswith("#")][1:]
+    values = np.loadtxt(lines, delimiter=",")
+    assert values[:, 2].tobytes() == np.asarray(document["cl"]).ravel().tobytes()

@@ -24,6 +24,7 @@ from polarsvc.store.derived import (
     derived_recipe,
     derived_using_revision,
     find_derived,
+    find_derived_all,
     get_derived,
     put_derived,
 )
@@ -203,11 +204,38 @@ def test_reports_and_lookup_by_either_hash(seeded: sessionmaker[Session]) -> Non
         assert found.id == first.id
         assert json.loads(found.reports) == {"join_deg": 12.5, "note": "<i>", "slopes": [1.0, None]}
         assert find_derived(session, second.recipe_hash).reports is None
-        # both recipes give the same content: the content hash alone is ambiguous
-        with pytest.raises(AmbiguousKey):
-            find_derived(session, first.content_hash)
+        # both recipes give the same content: the full content hash names both, oldest first
+        assert [r.id for r in find_derived_all(session, first.content_hash)] == [
+            first.id, second.id]
+        assert find_derived(session, first.content_hash).id == first.id
+        assert [r.id for r in find_derived_all(session, first.content_hash[:10])] == [
+            first.id, second.id]
+        assert [r.id for r in find_derived_all(session, second.recipe_hash)] == [second.id]
         with pytest.raises(NotFound):
             find_derived(session, "f" * 64 if first.recipe_hash[0] != "f" else "e" * 64)
+
+
+def test_a_real_prefix_of_two_recipes_stays_ambiguous(seeded: sessionmaker[Session]) -> None:
+    (revision_id,) = _revisions(seeded, 1)
+    with session_scope(seeded, write=True) as session:
+        stored, _ = put_derived(
+            session, recipe={"n": 1}, kind="resampled", alpha_deg=ALPHA,
+            columns={"cl": ALPHA * 0.01}, input_revision_ids=[revision_id], actor=CURATOR,
+        )
+        # two rows whose hashes share 8 digits, crafted for the test (sha256 prefixes collide
+        # only by chance, about once in 2**32 pairs)
+        for digit in ("0", "1"):
+            session.add(DerivedTable(
+                recipe_hash="abcdef01" + digit * 56, kind="resampled", recipe="{}",
+                content_hash="fedcba98" + digit * 56, payload=stored.payload,
+                payload_shape=stored.payload_shape, reports=None,
+            ))
+    with session_scope(seeded, write=False) as session:
+        for prefix in ("abcdef01", "fedcba98"):
+            with pytest.raises(AmbiguousKey, match="prefix matches 2 objects"):
+                find_derived_all(session, prefix)
+        assert find_derived(session, "abcdef010").content_hash == "fedcba98" + "0" * 56
+        assert find_derived(session, "fedcba981").recipe_hash == "abcdef01" + "1" * 56
 
 
 def test_blade_hash_recomputes(seeded: sessionmaker[Session]) -> None:

@@ -27,6 +27,10 @@ def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = Non
 @router.get(
     "/derived/{key}/lineage",
     summary="The tree of inputs of a derived table, down to stored revisions",
+    description=(
+        "By recipe hash: that table's tree. By content hash: the tree, or, when several "
+        "recipes gave the same numbers, a node `content` whose `recipes` lists each tree."
+    ),
 )
 def get_lineage(
     key: str,
@@ -34,7 +38,7 @@ def get_lineage(
     _: Reader,
     format: Annotated[str, Query(pattern="^(json|text)$")] = "json",
 ):
-    tree = lineage.derived_node(session, pipeline.find_derived(session, key))
+    tree = lineage.lineage_of(session, pipeline.find_derived_all(session, key))
     if format == "text":
         return PlainTextResponse(lineage.lineage_text(tree))
     return json_response(tree)
@@ -43,6 +47,10 @@ def get_lineage(
 @router.post(
     "/derived/{key}/verify",
     summary="Recompute a derived table from its recorded recipe and compare hashes",
+    description=(
+        "A content hash shared by several recipes checks each: `matches` is true when all "
+        "match, `recipes` holds one report per recipe."
+    ),
 )
 def verify(key: str, request: Request, _: Reader):
     return json_response(pipeline.verify_derived(request.app.state.session_factory, key))
