@@ -306,9 +306,9 @@ def rated_wind_speed(
     options: dict[str, Any],
 ) -> float | None:
     """Lowest wind speed [m/s] where the speed schedule at fine pitch reaches rated power
-    (scan in 0.25 m/s steps from cut-in, then the root finder), or None if it never does."""
-    scan = np.arange(turbine.cut_in_m_s, turbine.cut_out_m_s + 1e-9, 0.25)
-    scan[-1] = min(scan[-1], turbine.cut_out_m_s)
+    (scan in 0.5 m/s steps from cut-in, then the root finder), or None if it never does."""
+    scan = np.arange(turbine.cut_in_m_s, turbine.cut_out_m_s - 1e-9, 0.5)
+    scan = np.append(scan, turbine.cut_out_m_s)
 
     def excess(speed: FloatArray) -> FloatArray:
         _, tsr, _ = _speed_schedule(geometry, turbine, speed, best_tsr)

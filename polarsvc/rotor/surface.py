@@ -20,8 +20,8 @@ DEFAULT_TIP_SPEED_RATIOS = np.linspace(1.0, 15.0, 57)
 DEFAULT_PITCHES_DEG = np.linspace(-5.0, 40.0, 46)
 """-5 to 40 deg in steps of 1 deg."""
 
-ZOOM_POINTS = 9
-ZOOM_STEPS = 4
+ZOOM_POINTS = 5
+ZOOM_STEPS = 6
 
 
 @dataclass(frozen=True)
@@ -59,9 +59,10 @@ def best_operating_point(
     cp: FloatArray,
     **options: Any,
 ) -> tuple[float, float, float]:
-    """Refine the grid maximum of ``cp`` by successive zooms: a 9 x 9 grid spanning the
-    neighbouring grid cells, solved at once, then again around its maximum with a quarter
-    of the span (4 times); bounded by the outer grid. Returns (tip speed ratio, pitch, Cp)."""
+    """Refine the grid maximum of ``cp`` by successive zooms: a 5 x 5 grid spanning the
+    neighbouring grid cells, solved at once, then again around its maximum with half the
+    span (6 times, a 64th of a grid cell at the end); bounded by the outer grid. Returns
+    (tip speed ratio, pitch, Cp)."""
     i, j = np.unravel_index(int(np.argmax(cp)), cp.shape)
     best = (float(tip_speed_ratio[i]), float(pitch_deg[j]), float(cp[i, j]))
 
@@ -85,7 +86,7 @@ def best_operating_point(
         k = int(np.argmax(local))
         if local.flat[k] > best[2]:
             best = (float(L.flat[k]), float(P.flat[k]), float(local.flat[k]))
-        half = [h / 4.0 for h in half]
+        half = [h / 2.0 for h in half]
     return best
 
 
