@@ -303,14 +303,14 @@ def _tables(alpha_deg: ArrayLike, cl: ArrayLike, cd: ArrayLike, stations: int) -
                 f"must have shape (stations, angles) = ({stations}, {grid.size}), "
                 f"got {array.shape}",
             )
-        bad = np.argwhere(~np.isfinite(array))
-        if bad.size:
+        if not np.isfinite(array).all():
+            bad = np.argwhere(~np.isfinite(array))
             raise ParameterError(
                 name, f"station {int(bad[0][0])}, angle {grid[bad[0][1]]:g} deg is not finite"
             )
         arrays.append(np.ascontiguousarray(array).ravel())
     spacing = np.diff(grid)
-    uniform = bool(np.allclose(spacing, spacing[0], rtol=1e-12, atol=1e-12))
+    uniform = bool(spacing.max() - spacing.min() <= 1e-12 * max(1.0, abs(spacing[0])))
     periodic = bool(grid[-1] - grid[0] >= 360.0 - 1e-9)
     return _Tables(
         grid, arrays[0], arrays[1], grid.size, periodic, float(spacing[0]) if uniform else None
