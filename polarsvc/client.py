@@ -6,6 +6,8 @@ Example::
     with PolarClient("http://127.0.0.1:8000", token="psv_...") as client:
         blade = client.blade_set("skerry-48")
         cl = blade.cl            # (n_stations, n_angles)
+        f = blade.f_separation   # dynamic-stall inputs, (n_stations, n_angles)
+        onset = [s["stall_onset_deg"] for s in blade.dynamic_stall]
         print(blade.content_hash, blade.recipe_hash)
 
 Exception tree::
@@ -80,13 +82,27 @@ class RequestRefused(ServiceError):
 @dataclass(frozen=True)
 class DerivedTable:
     """A table from the service: angles [deg], coefficient arrays (1-D for one section, or
-    stations x angles for a blade set) and the metadata (recipe, hashes, reports)."""
+    stations x angles for a blade set) and the metadata (recipe, hashes, reports).
+
+    Blade sets also carry the dynamic-stall inputs: ``f_separation`` (Kirchhoff separation
+    function) and ``cl_fs`` (fully separated lift), stations x angles, and per station
+    :attr:`dynamic_stall` (zero-lift angle, attached lift slope, stall onset)."""
 
     alpha_deg: np.ndarray
     cl: np.ndarray
     cd: np.ndarray
     cm: np.ndarray | None
     meta: dict[str, Any] = field(default_factory=dict)
+    f_separation: np.ndarray | None = None
+    cl_fs: np.ndarray | None = None
+
+    @property
+    def dynamic_stall(self) -> list[dict[str, Any]]:
+        """Per station: ``alpha0_deg``, ``cl_alpha_per_rad``, ``stall_onset_deg`` and
+        ``stall_onset_neg_deg`` (None for a station without lift); empty for a single
+        section."""
+        stations = (self.meta.get("reports") or {}).get("stations") or []
+        return [dict(s["dynamic_stall"]) for s in stations if "dynamic_stall" in s]
 
     @property
     def content_hash(self) -> str:
@@ -174,6 +190,8 @@ def _table_from_binary(payload: bytes, media_type: str) -> DerivedTable:
         cd=decoded.columns["cd"],
         cm=decoded.columns.get("cm"),
         meta=meta,
+        f_separation=decoded.columns.get("f_separation"),
+        cl_fs=decoded.columns.get("cl_fs"),
     )
 
 

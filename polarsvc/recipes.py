@@ -25,13 +25,17 @@ Steps per kind (each step is one function of :mod:`polarsvc.aero`):
 
 - ``resampled``: resample the stored table onto the grid (within its own angle range).
 - ``extended``: extend_full_range, then resample onto the grid.
-- ``augmented``: extend_full_range, augment_rotation, then resample onto the grid.
+- ``augmented``: extend_full_range then augment_rotation (or the reverse, as the rotation
+  parameter ``order`` says), then resample onto the grid.
 - ``blended``: the family pipeline of :func:`polarsvc.aero.build_blade_tables` at a single
   section without rotation (extend each member, resample, log-Re then thickness
   interpolation).
 - ``blade-set``: :func:`polarsvc.aero.build_blade_tables` over the stored blade's stations,
   with station Reynolds numbers from the operating point
-  (:func:`polarsvc.aero.station_reynolds`).
+  (:func:`polarsvc.aero.station_reynolds`); the broadside drag from the blade's own aspect
+  ratio unless the extension parameters give one (:func:`blade_set_params`); the result holds
+  the dynamic-stall arrays ``f_separation`` and ``cl_fs`` beside cl, cd, cm
+  (:func:`dynamic_stall_columns`) and their per-station values in the station reports.
 - ``rotor``: the blade set named by the recipe, then
   :func:`polarsvc.performance.compute_performance` (steady BEM, Cp surface, power curve,
   annual energy). Its result is a set of named arrays without an angle column.
@@ -49,7 +53,16 @@ import numpy as np
 from polarsvc import __version__, aero, performance
 from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
-from polarsvc.aero.extension import DEFAULT_EXTENSION_STEP_DEG, DEFAULT_TRAILING_EDGE_LIFT_FACTOR
+from polarsvc.aero.extension import (
+    DEFAULT_EXTENSION_STEP_DEG,
+    DEFAULT_TRAILING_EDGE_DRAG,
+    DEFAULT_TRAILING_EDGE_LIFT_FACTOR,
+)
+from polarsvc.aero.rotation import (
+    DEFAULT_FADE_END_OFFSET_DEG,
+    DEFAULT_FADE_START_OFFSET_DEG,
+    DEFAULT_ROTATION_ORDER,
+)
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
 
 RECIPE_SCHEMA = "polarsvc-recipe/1"
@@ -58,10 +71,13 @@ RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set", "r
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
 
-DEFAULT_FADE_DEG = (30.0, 50.0)
-"""Rotational augmentation fully applied up to 30 deg, zero from 50 deg (common practice,
-no source; see domain notes)."""
+DYNAMIC_STALL_COLUMNS = ("f_separation", "cl_fs")
+"""Stations x angles arrays of the dynamic-stall inputs served with every blade set."""
 
+BROADSIDE_DRAG_DEFINITION = (
+    "cd_max = 1.11 + 0.018 AR (Viterna & Corrigan 1982), AR = (R - r_hub)^2 / planform area "
+    "(trapezoidal rule over the stations)"
+)
 
 @dataclass(frozen=True)
 class DerivedResult:
@@ -98,10 +114,15 @@ def extension_params(
     alpha_stall_neg_deg: float | None = None,
     trailing_edge_lift_factor: float = DEFAULT_TRAILING_EDGE_LIFT_FACTOR,
     step_deg: float = DEFAULT_EXTENSION_STEP_DEG,
+    trailing_edge_drag: str = DEFAULT_TRAILING_EDGE_DRAG,
 ) -> dict[str, Any]:
     """Keywords of :func:`polarsvc.aero.extend_full_range`, defaults written out."""
     if method not in aero.EXTENSION_METHODS:
         raise UnknownMethodError("method", method, aero.EXTENSION_METHODS)
+    if trailing_edge_drag not in aero.TRAILING_EDGE_DRAG_RULES:
+        raise UnknownMethodError(
+            "trailing_edge_drag", trailing_edge_drag, aero.TRAILING_EDGE_DRAG_RULES
+        )
     return {
         "method": method,
         "aspect_ratio": _optional_float("aspect_ratio", aspect_ratio),
@@ -110,6 +131,7 @@ def extension_params(
         "alpha_stall_neg_deg": _optional_float("alpha_stall_neg_deg", alpha_stall_neg_deg),
         "trailing_edge_lift_factor": float(trailing_edge_lift_factor),
         "step_deg": float(step_deg),
+        "trailing_edge_drag": trailing_edge_drag,
     }
 
 
@@ -121,22 +143,36 @@ def rotation_params(
     tip_speed_ratio: float | None = None,
     twist_deg: float = 0.0,
     cl_alpha_per_rad: float | None = None,
-    fade_start_deg: float = DEFAULT_FADE_DEG[0],
-    fade_end_deg: float = DEFAULT_FADE_DEG[1],
+    fade_start_deg: float | None = None,
+    fade_end_deg: float | None = None,
+    fade_start_offset_deg: float = DEFAULT_FADE_START_OFFSET_DEG,
+    fade_end_offset_deg: float = DEFAULT_FADE_END_OFFSET_DEG,
+    negative_side: bool = False,
+    order: str = DEFAULT_ROTATION_ORDER,
     station: bool = True,
 ) -> dict[str, Any]:
-    """Keywords of :func:`polarsvc.aero.augment_rotation`, defaults written out.
+    """Keywords of :func:`polarsvc.aero.augment_rotation`, defaults written out, plus the
+    ``order`` relative to the full-range extension
+    (:data:`polarsvc.aero.DEFAULT_ROTATION_ORDER` says why extend-then-augment is the
+    default).
 
-    With ``station=False`` (blade sets) the station quantities come from the blade and
-    only the model settings are kept.
+    The fade is tied to each section's stall angle by the offsets unless ``fade_start_deg``
+    or ``fade_end_deg`` give absolute angles. With ``station=False`` (blade sets) the
+    station quantities come from the blade and only the model settings are kept.
     """
     if model not in aero.ROTATION_MODELS:
         raise UnknownMethodError("model", model, aero.ROTATION_MODELS)
+    if order not in aero.ROTATION_ORDERS:
+        raise UnknownMethodError("order", order, aero.ROTATION_ORDERS)
     params: dict[str, Any] = {
         "model": model,
         "cl_alpha_per_rad": _optional_float("cl_alpha_per_rad", cl_alpha_per_rad),
-        "fade_start_deg": float(fade_start_deg),
-        "fade_end_deg": float(fade_end_deg),
+        "fade_start_deg": _optional_float("fade_start_deg", fade_start_deg),
+        "fade_end_deg": _optional_float("fade_end_deg", fade_end_deg),
+        "fade_start_offset_deg": float(fade_start_offset_deg),
+        "fade_end_offset_deg": float(fade_end_offset_deg),
+        "negative_side": bool(negative_side),
+        "order": order,
     }
     if station:
         if r_over_R is None or chord_over_r is None:
@@ -208,14 +244,16 @@ def blade_set_recipe_of(recipe: Mapping[str, Any]) -> dict[str, Any]:
 
 
 def _single_table(polar: aero.Polar, params: Mapping[str, Any], kind: str) -> aero.Polar:
+    rotation = dict(params["rotation"]) if kind == "augmented" else {}
+    order = rotation.pop("order", DEFAULT_ROTATION_ORDER)
+    if kind == "augmented" and order == "augment-then-extend":
+        polar = aero.augment_rotation(polar, rotation.pop("model"), **rotation)
     if kind in ("extended", "augmented"):
         extension = dict(params["extension"])
         method = extension.pop("method")
         polar = aero.extend_full_range(polar, method, **extension)
-    if kind == "augmented":
-        rotation = dict(params["rotation"])
-        model = rotation.pop("model")
-        polar = aero.augment_rotation(polar, model, **rotation)
+    if kind == "augmented" and order == "extend-then-augment":
+        polar = aero.augment_rotation(polar, rotation.pop("model"), **rotation)
     step = params.get("step_deg")
     if step is not None:
         grid = aero.uniform_grid(float(step))
@@ -256,6 +294,7 @@ def _prepare_keywords(params: Mapping[str, Any]) -> dict[str, Any]:
         "cd_max": extension["cd_max"],
         "trailing_edge_lift_factor": extension["trailing_edge_lift_factor"],
         "extension_step_deg": extension["step_deg"],
+        "trailing_edge_drag": extension["trailing_edge_drag"],
     }
 
 
@@ -343,7 +382,12 @@ def blade_set_params(
 ) -> dict[str, Any]:
     """Parameters of a blade-set recipe; the blade's own surface and operating point are
     the defaults. ``rotation=None`` means the default model (Snel); pass
-    ``{"model": "none"}`` for none."""
+    ``{"model": "none"}`` for none.
+
+    Broadside drag: unless ``extension`` gives ``aspect_ratio`` or ``cd_max``, the blade's
+    own aspect ratio (:func:`polarsvc.aero.blade_aspect_ratio`) sets cd_max; the recipe
+    records it under ``extension.aspect_ratio`` and ``broadside_drag`` (source, definition,
+    value)."""
     operating = dict(blade.get("operating_point") or {})
     if wind_speed_m_s is not None:
         operating["wind_speed_m_s"] = float(wind_speed_m_s)
@@ -356,11 +400,27 @@ def blade_set_params(
         rotation_block = None
     else:
         rotation_block = rotation_params(**dict(rotation or {}), station=False)
+    extension_block = dict(extension or extension_params())
+    broadside: dict[str, Any] = {"source": "extension parameters"}
+    if extension_block.get("aspect_ratio") is None and extension_block.get("cd_max") is None:
+        stations = blade["stations"]
+        ratio = aero.blade_aspect_ratio(
+            [s["radius_m"] for s in stations], [s["chord_m"] for s in stations],
+            float(blade["rotor_radius_m"]), blade.get("hub_radius_m"),
+        )
+        extension_block["aspect_ratio"] = ratio
+        broadside = {
+            "source": "blade",
+            "definition": BROADSIDE_DRAG_DEFINITION,
+            "aspect_ratio": ratio,
+            "cd_max": aero.viterna_cd_max(ratio),
+        }
     return {
         "surface": surface or blade.get("surface", "clean"),
         "thickness_method": thickness_method,
         "clamp": bool(clamp),
-        "extension": dict(extension or extension_params()),
+        "extension": extension_block,
+        "broadside_drag": broadside,
         "rotation": rotation_block,
         "step_deg": float(step_deg),
         "operating_point": {
@@ -384,8 +444,14 @@ def build_blade_set(
         rotation_keywords = {
             "rotation_model": rotation["model"],
             "cl_alpha_per_rad": rotation["cl_alpha_per_rad"],
-            "fade_start_deg": rotation["fade_start_deg"],
-            "fade_end_deg": rotation["fade_end_deg"],
+            "fade": aero.FadeSettings(
+                start_deg=rotation["fade_start_deg"],
+                end_deg=rotation["fade_end_deg"],
+                start_offset_deg=rotation["fade_start_offset_deg"],
+                end_offset_deg=rotation["fade_end_offset_deg"],
+                negative_side=rotation["negative_side"],
+            ),
+            "rotation_order": rotation["order"],
         }
     if not isinstance(family, aero.PreparedFamily):
         family = aero.prepare_family(family, **_prepare_keywords(params))
@@ -409,10 +475,24 @@ def build_blade_set(
                 "chord_over_r": float(definition["chord_m"]) / float(definition["radius_m"]),
             }
         )
-    return _tables_result(
+    result = _tables_result(
         tables,
         {"stations": station_reports, "tip_speed_ratio": blade_tip_speed_ratio(blade, params)},
     )
+    result.columns.update(dynamic_stall_columns(tables))
+    return result
+
+
+def dynamic_stall_columns(tables: aero.BladeTables) -> dict[str, np.ndarray]:
+    """The dynamic-stall arrays served with a blade set, stations x angles, by name
+    (:data:`DYNAMIC_STALL_COLUMNS`): the Kirchhoff separation function and the fully separated
+    lift of every station's served table. The one place that builds them; every format
+    writes them as further coefficient columns, and the per-station values (alpha0, lift
+    slope, stall onset) are in the station reports under ``dynamic_stall``."""
+    inputs = tables.dynamic_stall
+    if inputs is None:
+        return {}
+    return dict(zip(DYNAMIC_STALL_COLUMNS, (inputs.f_separation, inputs.cl_fs), strict=True))
 
 
 def execute_recipe(

@@ -4,14 +4,18 @@ from polarsvc.aero.blade import (
     BladeStations,
     BladeTables,
     PreparedFamily,
+    blade_aspect_ratio,
     build_blade_tables,
     prepare_family,
     station_reynolds,
 )
 from polarsvc.aero.characteristics import (
     Characteristics,
+    DynamicStallInputs,
     attached_lift_line,
     characteristics,
+    dynamic_stall_inputs,
+    measured_range,
     separation_function,
 )
 from polarsvc.aero.errors import (
@@ -24,6 +28,7 @@ from polarsvc.aero.errors import (
 )
 from polarsvc.aero.extension import (
     EXTENSION_METHODS,
+    TRAILING_EDGE_DRAG_RULES,
     centre_of_pressure_moment,
     extend_full_range,
     flat_plate,
@@ -40,8 +45,13 @@ from polarsvc.aero.interpolation import (
 from polarsvc.aero.polar import SURFACE_CONDITIONS, Polar, polar_from_columns
 from polarsvc.aero.resample import resample, uniform_grid
 from polarsvc.aero.rotation import (
+    CALIBRATION_CHORD_OVER_R,
+    DEFAULT_ROTATION_ORDER,
     ROTATION_MODELS,
+    ROTATION_ORDERS,
+    FadeSettings,
     augment_rotation,
+    augmentation_flags,
     chaviaropoulos_hansen_factor,
     du_selig_factors,
     fade_weight,
@@ -49,15 +59,21 @@ from polarsvc.aero.rotation import (
 )
 
 __all__ = [
+    "CALIBRATION_CHORD_OVER_R",
+    "DEFAULT_ROTATION_ORDER",
     "EXTENSION_METHODS",
     "ROTATION_MODELS",
+    "ROTATION_ORDERS",
     "SURFACE_CONDITIONS",
     "THICKNESS_METHODS",
+    "TRAILING_EDGE_DRAG_RULES",
     "AeroError",
     "BladeStations",
     "BladeTables",
     "BracketWeights",
     "Characteristics",
+    "DynamicStallInputs",
+    "FadeSettings",
     "InsufficientDataError",
     "OutOfRangeError",
     "ParameterError",
@@ -67,17 +83,21 @@ __all__ = [
     "UnknownMethodError",
     "attached_lift_line",
     "augment_rotation",
+    "augmentation_flags",
+    "blade_aspect_ratio",
     "bracket_weights",
     "build_blade_tables",
     "centre_of_pressure_moment",
     "characteristics",
     "chaviaropoulos_hansen_factor",
     "du_selig_factors",
+    "dynamic_stall_inputs",
     "extend_full_range",
     "fade_weight",
     "flat_plate",
     "interpolate_reynolds",
     "interpolate_thickness",
+    "measured_range",
     "polar_from_columns",
     "prepare_family",
     "resample",

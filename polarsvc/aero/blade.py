@@ -18,7 +18,13 @@ Steps 4-6 (:func:`build_blade_tables`):
    PCHIP -- Reynolds interpolation per thickness, then the PCHIP kernel of
    :func:`~polarsvc.aero.interpolation.interpolate_thickness` over all stations;
 6. rotational augmentation of every station at once (the kernel of
-   :func:`~polarsvc.aero.rotation.augment_rotation`).
+   :func:`~polarsvc.aero.rotation.augment_rotation`), by default on the full-range tables
+   (``rotation_order="extend-then-augment"``, reasons at
+   :data:`~polarsvc.aero.rotation.DEFAULT_ROTATION_ORDER`); with
+   ``"augment-then-extend"`` each station's table within its measured range (the angles
+   measured in every member it draws on) is augmented, then extended and resampled again;
+7. the dynamic-stall inputs of every station, from the table served
+   (:func:`~polarsvc.aero.characteristics.dynamic_stall_inputs`).
 
 Steps 4-6 run as numpy operations over (stations x angles); the only Python loop is over the
 few thickness members. Each step uses the same kernel as the scalar function of the same
@@ -35,14 +41,19 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from polarsvc.aero.characteristics import _lift_line_arrays
+from polarsvc.aero.characteristics import (
+    DynamicStallInputs,
+    _dynamic_stall_arrays,
+    _lift_line_arrays,
+    measured_range,
+)
 from polarsvc.aero.errors import (
     InsufficientDataError,
     ParameterError,
     UnknownMethodError,
     show_value,
 )
-from polarsvc.aero.extension import extend_full_range
+from polarsvc.aero.extension import DEFAULT_TRAILING_EDGE_DRAG, extend_full_range
 from polarsvc.aero.interpolation import (
     THICKNESS_METHODS,
     _combine,
@@ -54,14 +65,20 @@ from polarsvc.aero.interpolation import (
 from polarsvc.aero.polar import Polar
 from polarsvc.aero.resample import resample, uniform_grid
 from polarsvc.aero.rotation import (
+    DEFAULT_ROTATION_ORDER,
     ROTATION_MODELS,
+    ROTATION_ORDERS,
+    FadeSettings,
     _augment_arrays,
     _model_factors,
     _override_slope,
-    fade_weight,
+    _station_weight,
+    augment_rotation,
+    augmentation_flags,
 )
 
 FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
 
 ISA_DENSITY_KG_M3 = 1.225
 ISA_VISCOSITY_PA_S = 1.789e-5
@@ -137,6 +154,12 @@ class BladeStations:
         return int(self.radius_m.size)
 
 
+DYNAMIC_STALL_SCALARS = ("alpha0_deg", "cl_alpha_per_rad", "stall_onset_deg",
+                         "stall_onset_neg_deg")
+"""Per-station values of :class:`~polarsvc.aero.characteristics.DynamicStallInputs` that go
+into the station reports (the arrays f and cl_fs are stations x angles)."""
+
+
 @dataclass(frozen=True)
 class BladeTables:
     """Tables at every station: ``cl``, ``cd`` and ``cm`` (or ``None``) of shape
@@ -150,6 +173,7 @@ class BladeTables:
     cm: FloatArray | None
     stations: tuple[dict[str, Any], ...]
     recipe: dict[str, Any] = field(default_factory=dict)
+    dynamic_stall: DynamicStallInputs | None = None
 
 
 def _as_stations(stations: BladeStations | Mapping[str, ArrayLike] | Any) -> BladeStations:
@@ -171,7 +195,8 @@ class PreparedFamily:
 
     ``tables`` ``(m, n_columns, n_angles)`` holds the members ordered by thickness, then
     Reynolds number; ``groups`` holds per thickness in ``thicknesses`` (increasing) the
-    increasing Reynolds numbers and the slice of ``tables`` of its members.
+    increasing Reynolds numbers and the slice of ``tables`` of its members;
+    ``measured_deg`` ``(m, 2)`` the measured angle range of each member.
     """
 
     alpha_deg: FloatArray
@@ -180,6 +205,7 @@ class PreparedFamily:
     tables: FloatArray
     columns: tuple[str, ...]
     recipe: dict[str, Any]
+    measured_deg: FloatArray
 
 
 def prepare_family(
@@ -192,6 +218,7 @@ def prepare_family(
     cd_max: float | None = None,
     trailing_edge_lift_factor: float = 0.7,
     extension_step_deg: float = 1.0,
+    trailing_edge_drag: str = DEFAULT_TRAILING_EDGE_DRAG,
 ) -> PreparedFamily:
     """Steps 1-3 of the pipeline: filter by surface condition, extend each member once
     (:func:`~polarsvc.aero.extension.extend_full_range`, same keywords) and resample each
@@ -220,6 +247,7 @@ def prepare_family(
                 cd_max=cd_max,
                 trailing_edge_lift_factor=trailing_edge_lift_factor,
                 step_deg=extension_step_deg,
+                trailing_edge_drag=trailing_edge_drag,
             ),
             alpha_deg=grid,
         )
@@ -241,6 +269,7 @@ def prepare_family(
         groups.append((keys, slice(len(ordered), len(ordered) + len(group))))
         ordered.extend(group)
     stack = np.asarray([[getattr(t, c) for c in columns] for t in ordered], dtype=np.float64)
+    measured = np.asarray([measured_range(t) for t in ordered], dtype=np.float64)
     recipe = {
         "grid_step_deg": float(grid_step_deg),
         "surface": surface,
@@ -249,9 +278,12 @@ def prepare_family(
         "cd_max": cd_max,
         "trailing_edge_lift_factor": float(trailing_edge_lift_factor),
         "extension_step_deg": float(extension_step_deg),
+        "trailing_edge_drag": trailing_edge_drag,
         "members": len(chosen),
     }
-    return PreparedFamily(grid, np.asarray(thicknesses), tuple(groups), stack, columns, recipe)
+    return PreparedFamily(
+        grid, np.asarray(thicknesses), tuple(groups), stack, columns, recipe, measured
+    )
 
 
 def build_blade_tables(
@@ -267,12 +299,14 @@ def build_blade_tables(
     cd_max: float | None = None,
     trailing_edge_lift_factor: float = 0.7,
     extension_step_deg: float = 1.0,
+    trailing_edge_drag: str = DEFAULT_TRAILING_EDGE_DRAG,
     rotation_model: str | None = "snel",
     cl_alpha_per_rad: float | None = None,
-    fade_start_deg: float = 30.0,
-    fade_end_deg: float = 50.0,
+    fade: FadeSettings | None = None,
+    rotation_order: str = DEFAULT_ROTATION_ORDER,
     thickness_method: str = "linear",
     clamp: bool = False,
+    dynamic_stall: bool = True,
 ) -> BladeTables:
     """Full-range, rotationally augmented, interpolated tables at every blade station.
 
@@ -292,15 +326,22 @@ def build_blade_tables(
         Step of the common angle grid [deg] over -180..180.
     surface : str
         Surface condition of the members used.
-    extension_method, aspect_ratio, cd_max, trailing_edge_lift_factor, extension_step_deg
+    extension_method, aspect_ratio, cd_max, trailing_edge_lift_factor, extension_step_deg,
+    trailing_edge_drag
         Passed to :func:`~polarsvc.aero.extension.extend_full_range` (``step_deg``).
     rotation_model : str or None
         One of :data:`~polarsvc.aero.rotation.ROTATION_MODELS`, or ``None`` for none.
-    cl_alpha_per_rad, fade_start_deg, fade_end_deg
+    cl_alpha_per_rad : float, optional
         As in :func:`~polarsvc.aero.rotation.augment_rotation`.
+    fade : FadeSettings, optional
+        Fade of the augmentation (default: tied to each station's stall angle, positive side).
+    rotation_order : {"extend-then-augment", "augment-then-extend"}
+        See :data:`~polarsvc.aero.rotation.DEFAULT_ROTATION_ORDER`.
     thickness_method : {"linear", "pchip"}
     clamp : bool
         Clamp stations outside the family's Reynolds or thickness range (recorded per station).
+    dynamic_stall : bool
+        Compute the dynamic-stall inputs of every station (step 7).
 
     Returns
     -------
@@ -329,6 +370,7 @@ def build_blade_tables(
         cd_max=cd_max,
         trailing_edge_lift_factor=trailing_edge_lift_factor,
         extension_step_deg=extension_step_deg,
+        trailing_edge_drag=trailing_edge_drag,
     )
     grid = family.alpha_deg
     log_re = np.log10(blade.reynolds)
@@ -348,6 +390,7 @@ def build_blade_tables(
             [_combine(family.tables, index, weight) for index, weight in re_pairs]
         )
         table = _pchip_blend(values, per_thickness, t_weights.used)
+        contributors = list(re_pairs)  # PCHIP draws on every thickness
     else:
         # thickness neighbours x their Reynolds neighbours: four terms per station
         t_index, t_weight = _pairs(t_weights)
@@ -362,26 +405,50 @@ def build_blade_tables(
             axis=1,
         )
         table = _combine(family.tables, index, weight)
+        contributors = [(index, weight)]
     cl, cd = table[:, 0], table[:, 1]
     cm = table[:, 2] if "cm" in family.columns else None
+    measured = _station_measured(family, contributors)
     r_over_R = blade.radius_m / rotor_radius_m
     chord_over_r = blade.chord_m / blade.radius_m
-    rotation: dict[str, FloatArray] = {}
+    fade = fade or FadeSettings()
+    rotation: dict[str, Any] = {}
     if rotation_model is not None:
-        weight = fade_weight(grid, fade_start_deg, fade_end_deg)
+        if rotation_order not in ROTATION_ORDERS:
+            raise UnknownMethodError("rotation_order", rotation_order, ROTATION_ORDERS)
         f_cl, g_cd = _model_factors(
             rotation_model, chord_over_r, r_over_R, tip_speed_ratio, blade.twist_deg
         )
-        slope, alpha0 = _lift_line_arrays(grid, cl)
-        slope = _override_slope(slope, cl_alpha_per_rad)
-        cl, cd = _augment_arrays(grid, cl, cd, f_cl, g_cd, slope, alpha0, weight)
-        rotation = {
-            "lift_factor": f_cl,
-            "drag_factor": g_cd,
-            "cl_alpha_per_rad": np.degrees(slope),
-            "alpha0_deg": alpha0,
-        }
-    reports = _station_reports(blade, reynolds_reports, values, t_weights, rotation)
+        if rotation_order == "extend-then-augment":
+            slope, alpha0 = _lift_line_arrays(grid, cl)
+            slope = _override_slope(slope, cl_alpha_per_rad)
+            weight, fade_report = _station_weight(
+                grid, cl, alpha0, measured[:, 0], measured[:, 1], fade
+            )
+            cl, cd = _augment_arrays(grid, cl, cd, f_cl, g_cd, slope, alpha0, weight)
+            rotation = {
+                "cl_alpha_per_rad": np.degrees(slope),
+                "alpha0_deg": alpha0,
+                **fade_report,
+            }
+        else:
+            cl, cd, cm, rotation = _augment_then_extend(
+                family, grid, cl, cd, cm, measured, rotation_model,
+                r_over_R=r_over_R, chord_over_r=chord_over_r,
+                tip_speed_ratio=tip_speed_ratio, twist_deg=blade.twist_deg,
+                cl_alpha_per_rad=cl_alpha_per_rad, fade=fade,
+            )
+        rotation = {"lift_factor": f_cl, "drag_factor": g_cd, **rotation}
+        rotation["flags"] = augmentation_flags(
+            rotation_model, chord_over_r, r_over_R, tip_speed_ratio, blade.twist_deg
+        )
+    stall_inputs = None
+    if dynamic_stall:
+        slope_served, alpha0_served = _lift_line_arrays(grid, cl)
+        stall_inputs = _dynamic_stall_arrays(grid, cl, slope_served, alpha0_served)
+    reports = _station_reports(
+        blade, reynolds_reports, values, t_weights, rotation, measured, stall_inputs
+    )
     recipe = {
         **family.recipe,
         "rotation_model": rotation_model,
@@ -389,9 +456,89 @@ def build_blade_tables(
         "clamp": clamp,
         "rotor_radius_m": float(rotor_radius_m),
         "tip_speed_ratio": tip_speed_ratio,
-        "fade_deg": [float(fade_start_deg), float(fade_end_deg)],
+        "rotation_order": rotation_order,
+        "fade": {
+            "start_deg": fade.start_deg,
+            "end_deg": fade.end_deg,
+            "start_offset_deg": float(fade.start_offset_deg),
+            "end_offset_deg": float(fade.end_offset_deg),
+            "negative_side": bool(fade.negative_side),
+        },
     }
-    return BladeTables(grid, cl, cd, cm, reports, recipe)
+    return BladeTables(grid, cl, cd, cm, reports, recipe, stall_inputs)
+
+
+def _station_measured(
+    family: PreparedFamily, contributors: list[tuple[IntArray, FloatArray]]
+) -> FloatArray:
+    """Measured angle range ``(ns, 2)`` of every station: the angles measured in every
+    member it draws on (non-zero weight)."""
+    low = np.full(contributors[0][0].shape[0], -np.inf)
+    high = np.full_like(low, np.inf)
+    for index, weight in contributors:
+        used = weight > 0.0
+        low = np.maximum(low, np.max(np.where(used, family.measured_deg[index, 0], -np.inf),
+                                     axis=1))
+        high = np.minimum(high, np.min(np.where(used, family.measured_deg[index, 1], np.inf),
+                                       axis=1))
+    return np.stack([low, high], axis=1)
+
+
+def _augment_then_extend(
+    family: PreparedFamily,
+    grid: FloatArray,
+    cl: FloatArray,
+    cd: FloatArray,
+    cm: FloatArray | None,
+    measured: FloatArray,
+    model: str,
+    *,
+    r_over_R: FloatArray,
+    chord_over_r: FloatArray,
+    tip_speed_ratio: float | None,
+    twist_deg: FloatArray,
+    cl_alpha_per_rad: float | None,
+    fade: FadeSettings,
+) -> tuple[FloatArray, FloatArray, FloatArray | None, dict[str, Any]]:
+    """Augment each station's table within its measured range, then extend it to the full
+    range with the family's extension settings and resample it onto ``grid`` (one station at
+    a time: the scalar functions)."""
+    settings = family.recipe
+    out_cl, out_cd = np.empty_like(cl), np.empty_like(cd)
+    out_cm = None if cm is None else np.empty_like(cm)
+    report: dict[str, list[float]] = {}
+    for s in range(cl.shape[0]):
+        inside = (grid >= measured[s, 0]) & (grid <= measured[s, 1])
+        section = Polar(
+            grid[inside], cl[s, inside], cd[s, inside],
+            None if cm is None else cm[s, inside], assume_degrees=True,
+        )
+        augmented = augment_rotation(
+            section, model, r_over_R=float(r_over_R[s]), chord_over_r=float(chord_over_r[s]),
+            tip_speed_ratio=tip_speed_ratio, twist_deg=float(twist_deg[s]),
+            cl_alpha_per_rad=cl_alpha_per_rad, fade_start_deg=fade.start_deg,
+            fade_end_deg=fade.end_deg, fade_start_offset_deg=fade.start_offset_deg,
+            fade_end_offset_deg=fade.end_offset_deg, negative_side=fade.negative_side,
+        )
+        full = resample(
+            extend_full_range(
+                augmented, settings["extension_method"],
+                aspect_ratio=settings["aspect_ratio"], cd_max=settings["cd_max"],
+                trailing_edge_lift_factor=settings["trailing_edge_lift_factor"],
+                step_deg=settings["extension_step_deg"],
+                trailing_edge_drag=settings["trailing_edge_drag"],
+            ),
+            alpha_deg=grid,
+        )
+        out_cl[s], out_cd[s] = full.cl, full.cd
+        if out_cm is not None and full.cm is not None:
+            out_cm[s] = full.cm
+        step = augmented.history[-1]
+        for key in ("cl_alpha_per_rad", "alpha0_deg", "stall_deg", "fade_start_deg",
+                    "fade_end_deg", "stall_neg_deg", "fade_neg_start_deg", "fade_neg_end_deg"):
+            if key in step:
+                report.setdefault(key, []).append(step[key])
+    return out_cl, out_cd, out_cm, {k: np.asarray(v) for k, v in report.items()}
 
 
 def _station_reports(
@@ -399,9 +546,18 @@ def _station_reports(
     reynolds_reports: list[tuple[float, FloatArray, Any]],
     thicknesses: FloatArray,
     t_weights: Any,
-    rotation: dict[str, FloatArray],
+    rotation: dict[str, Any],
+    measured: FloatArray,
+    stall_inputs: DynamicStallInputs | None,
 ) -> tuple[dict[str, Any], ...]:
     count = blade.size
+    measured_list = measured.tolist()
+    stall_scalars = {}
+    if stall_inputs is not None:
+        stall_scalars = {
+            key: [None if math.isnan(v) else v for v in getattr(stall_inputs, key).tolist()]
+            for key in DYNAMIC_STALL_SCALARS
+        }
     t_used = t_weights.used.tolist()
     t_clamped = t_weights.clamped.tolist()
     lower = t_weights.lower.tolist()
@@ -427,7 +583,8 @@ def _station_reports(
         )
         for _, keys, w in reynolds_reports
     ]
-    rot = {k: v.tolist() for k, v in rotation.items()}
+    flags = rotation.get("flags")
+    rot = {k: v.tolist() for k, v in rotation.items() if k != "flags"}
     reports = []
     for s in range(count):
         thickness_weights = {}
@@ -452,7 +609,47 @@ def _station_reports(
             "reynolds_weights": reynolds_weights,
             "reynolds_clamped": any(clamped[s] for _, _, clamped in per_member),
         }
+        report["measured_range_deg"] = measured_list[s]
         if rot:
             report["rotation"] = {k: v[s] for k, v in rot.items()}
+            if flags is not None:
+                report["rotation"].update(flags[s])
+        if stall_scalars:
+            report["dynamic_stall"] = {k: v[s] for k, v in stall_scalars.items()}
         reports.append(report)
     return tuple(reports)
+
+
+def blade_aspect_ratio(
+    radius_m: ArrayLike,
+    chord_m: ArrayLike,
+    rotor_radius_m: float,
+    hub_radius_m: float | None = None,
+) -> float:
+    """Aspect ratio of a blade planform, span squared over planform area.
+
+    ``AR = (R - r_root)^2 / A`` with ``r_root`` the hub radius (the innermost station when
+    not given) and ``A = int c dr`` by the trapezoidal rule over the stations (the usual wing
+    definition, span^2 / area; common practice, no source). This is the aspect ratio of the
+    Viterna-Corrigan broadside drag ``cd_max = 1.11 + 0.018 AR`` (Viterna & Corrigan 1982,
+    NASA CP-2230) when a blade set takes it from its blade.
+
+    Raises
+    ------
+    ParameterError
+        Fewer than two stations, radii not increasing, or a non-positive chord or span.
+    """
+    radius = np.asarray(radius_m, dtype=np.float64)
+    chord = np.asarray(chord_m, dtype=np.float64)
+    if radius.ndim != 1 or radius.size < 2 or radius.shape != chord.shape:
+        raise ParameterError("stations", "at least two stations with radius and chord")
+    if np.any(np.diff(radius) <= 0.0):
+        raise ParameterError("radius_m", "must increase from station to station")
+    if np.any(~np.isfinite(chord) | (chord <= 0.0)):
+        raise ParameterError("chord_m", "must be positive")
+    root = float(radius[0] if hub_radius_m is None else hub_radius_m)
+    span = float(rotor_radius_m) - root
+    if not (math.isfinite(span) and span > 0.0):
+        raise ParameterError("rotor_radius_m", f"must exceed the root radius {root:g} m")
+    area = float(np.sum(0.5 * (chord[1:] + chord[:-1]) * np.diff(radius)))
+    return span * span / area

@@ -1,8 +1,14 @@
-"""Characteristic values of a section polar and the Kirchhoff separation function.
+"""Characteristic values of a section polar, its stall angles, and the dynamic-stall inputs
+(Kirchhoff separation function, fully separated lift, stall onset).
 
 The attached-flow lift line ``cl_lin = cl_alpha (alpha - alpha0)`` is fitted here, once, by
 :func:`attached_lift_line` (array kernel :func:`_lift_line_arrays`); the rotational
-augmentation reuses the same kernel.
+augmentation reuses the same kernel, and the stall-angle kernel :func:`_stall_angle_arrays`
+serves the full-range extension and the augmentation fade alike.
+
+Which rows are measured: a table's history records the measured angle range when a step
+added rows outside it (the full-range extension records ``measured_range_deg``);
+:func:`measured_range` reads it back, and the characteristic values use those rows only.
 """
 
 from __future__ import annotations
@@ -10,7 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from polarsvc.aero.errors import InsufficientDataError
 from polarsvc.aero.polar import Polar
@@ -44,6 +50,15 @@ ATTACHED_WINDOW_DEG = (-30.0, 30.0)
 
 FULLY_ATTACHED_TOLERANCE = 1e-9
 """Where 1 - f is smaller than this, the fully separated lift is taken as cl_lin / 2."""
+
+STALL_SEARCH_DEG = 30.0
+"""Stall angles are searched within +-30 deg of zero, which keeps the flat-plate lift peak near
+45 deg out of the search (common practice, no source)."""
+
+STALL_ONSET_SEPARATION = 0.7
+"""Stall onset: the first angle beyond the attached range where the separation point f falls
+to 0.7 (the break point alpha_1 of the exponential f fit of Leishman & Beddoes 1989, J. Am.
+Helicopter Soc. 34(3); from memory)."""
 
 
 @dataclass(frozen=True)
@@ -168,8 +183,31 @@ def _window_mask(alpha_deg: FloatArray, window: tuple[float, float]) -> FloatArr
     return mask if mask.any() else np.ones_like(alpha_deg, dtype=bool)
 
 
+def measured_range(polar: Polar) -> tuple[float, float]:
+    """The measured angle range [deg] of a table: the range recorded by the first history
+    step that added rows outside the data (``measured_range_deg``), else the table's own.
+
+    Rows inside this range are the measured rows (or, after resampling, interpolated between
+    measured rows); rows outside come from a model."""
+    for step in polar.history:
+        recorded = step.get("measured_range_deg")
+        if recorded is not None:
+            return float(recorded[0]), float(recorded[1])
+    return float(polar.alpha_deg[0]), float(polar.alpha_deg[-1])
+
+
+def _measured_rows(polar: Polar) -> Polar:
+    low, high = measured_range(polar)
+    keep = (polar.alpha_deg >= low) & (polar.alpha_deg <= high)
+    if keep.all():
+        return polar
+    cm = None if polar.cm is None else polar.cm[keep]
+    return Polar(polar.alpha_deg[keep], polar.cl[keep], polar.cd[keep], cm,
+                 assume_degrees=True)
+
+
 def characteristics(polar: Polar) -> Characteristics:
-    """Characteristic values of a section polar.
+    """Characteristic values of a section polar, over its measured rows only.
 
     Parameters
     ----------
@@ -187,9 +225,11 @@ def characteristics(polar: Polar) -> Characteristics:
       the global minimum over -35..10 deg.
     - cd_min and (L/D)max: over -30..30 deg; (L/D)max is the largest cl/cd there.
     - cm0: cm at alpha0 by linear interpolation.
-    All on the table's own points (no smoothing). Definitions: Abbott & von Doenhoff (1959),
-    "Theory of Wing Sections" (from memory).
+    All on the table's own points (no smoothing), restricted to the measured rows
+    (:func:`measured_range`): the lift hump of a post-stall model near 45 deg is no cl_max.
+    Definitions: Abbott & von Doenhoff (1959), "Theory of Wing Sections" (from memory).
     """
+    polar = _measured_rows(polar)
     alpha = polar.alpha_deg
     cl_alpha_per_rad, alpha0 = attached_lift_line(polar)
     high = _window_mask(alpha, CL_MAX_WINDOW_DEG)
@@ -217,11 +257,172 @@ def characteristics(polar: Polar) -> Characteristics:
     )
 
 
+def _stall_angle_arrays(
+    alpha_deg: FloatArray,
+    cl: FloatArray,
+    low_deg: ArrayLike,
+    high_deg: ArrayLike,
+    *,
+    positive: bool = True,
+) -> FloatArray:
+    """Stall angle [deg] of every row of ``cl`` (``(k, na)``) on ``alpha_deg`` (``(na,)``):
+    the angle of the global cl maximum over (0, 30] deg (``positive``), or of the global cl
+    minimum over [-30, 0), among the angles within each row's measured range
+    ``low_deg..high_deg`` (``(k,)`` or scalars). Where no measured angle lies in the search
+    window, the whole measured side (angles > 0, or < 0) is searched; where none lies there
+    either, the measured end on that side is returned. The single implementation shared by
+    the full-range extension (its anchor points) and the augmentation fade."""
+    alpha_deg = np.asarray(alpha_deg, dtype=np.float64)
+    cl = np.atleast_2d(np.asarray(cl, dtype=np.float64))
+    rows = cl.shape[0]
+    low = np.broadcast_to(np.asarray(low_deg, dtype=np.float64), (rows,))
+    high = np.broadcast_to(np.asarray(high_deg, dtype=np.float64), (rows,))
+    measured = (alpha_deg[None, :] >= low[:, None]) & (alpha_deg[None, :] <= high[:, None])
+    if positive:
+        side = measured & (alpha_deg[None, :] > 0.0)
+        window = side & (alpha_deg[None, :] <= STALL_SEARCH_DEG)
+        signed = cl
+        fallback = high
+    else:
+        side = measured & (alpha_deg[None, :] < 0.0)
+        window = side & (alpha_deg[None, :] >= -STALL_SEARCH_DEG)
+        signed = -cl
+        fallback = low
+    use = np.where(window.any(axis=1)[:, None], window, side)
+    best = np.argmax(np.where(use, signed, -np.inf), axis=1)
+    return np.where(use.any(axis=1), alpha_deg[best], fallback)
+
+
+def _attached_hold(alpha_deg: FloatArray, f: FloatArray, alpha0: FloatArray,
+                   onset_pos: FloatArray, onset_neg: FloatArray) -> FloatArray:
+    """Mask of the attached range of every row: from the last angle before the negative
+    stall onset where the flow is attached (f = 1) to the last such angle before the positive
+    onset; the fit window of the lift line (alpha0 +- 5 deg) always included."""
+    at_one = f >= 1.0 - FULLY_ATTACHED_TOLERANCE
+    x = alpha_deg[None, :]
+    before_pos = at_one & (x >= alpha0[:, None]) & (x < onset_pos[:, None])
+    before_neg = at_one & (x <= alpha0[:, None]) & (x > onset_neg[:, None])
+    upper = np.max(np.where(before_pos, x, -np.inf), axis=1)
+    lower = np.min(np.where(before_neg, x, np.inf), axis=1)
+    upper = np.maximum(upper, alpha0 + LIFT_LINE_HALF_WINDOW_DEG)
+    lower = np.minimum(lower, alpha0 - LIFT_LINE_HALF_WINDOW_DEG)
+    return (x >= lower[:, None]) & (x <= upper[:, None])
+
+
+@dataclass(frozen=True)
+class DynamicStallInputs:
+    """What a dynamic-stall model of the Beddoes-Leishman family needs from a static table,
+    per row (station): ``alpha0_deg``, ``cl_alpha_per_rad`` and the stall-onset angles
+    ``stall_onset_deg`` / ``stall_onset_neg_deg`` ``(k,)``; the separation function
+    ``f_separation`` and the fully separated lift ``cl_fs`` ``(k, na)`` over the table's
+    angles."""
+
+    alpha0_deg: FloatArray
+    cl_alpha_per_rad: FloatArray
+    stall_onset_deg: FloatArray
+    stall_onset_neg_deg: FloatArray
+    f_separation: FloatArray
+    cl_fs: FloatArray
+
+
+def _dynamic_stall_arrays(
+    alpha_deg: FloatArray,
+    cl: FloatArray,
+    slope_per_deg: FloatArray,
+    alpha0_deg: FloatArray,
+    *,
+    hold_attached: bool = True,
+) -> DynamicStallInputs:
+    """The kernel of :func:`dynamic_stall_inputs` on rows ``cl`` ``(k, na)``, with the lift
+    line given per row (slope [1/deg], alpha0 [deg])."""
+    alpha_deg = np.asarray(alpha_deg, dtype=np.float64)
+    cl = np.atleast_2d(np.asarray(cl, dtype=np.float64))
+    slope = np.asarray(slope_per_deg, dtype=np.float64)
+    alpha0 = np.asarray(alpha0_deg, dtype=np.float64)
+    x = alpha_deg[None, :]
+    cl_lin = slope[:, None] * (x - alpha0[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(cl_lin != 0.0, cl / cl_lin, 1.0)
+    root = np.sqrt(np.clip(ratio, 0.0, 1.0))
+    f = np.where(root >= 0.5, (2.0 * root - 1.0) ** 2, 0.0)
+    separated = f <= STALL_ONSET_SEPARATION
+    reach = LIFT_LINE_HALF_WINDOW_DEG
+    above = separated & (x > alpha0[:, None] + reach)
+    below = separated & (x < alpha0[:, None] - reach)
+    onset_pos = np.min(np.where(above, x, np.inf), axis=1)
+    onset_neg = np.max(np.where(below, x, -np.inf), axis=1)
+    onset_pos = np.where(np.isfinite(onset_pos), onset_pos, alpha_deg[-1])
+    onset_neg = np.where(np.isfinite(onset_neg), onset_neg, alpha_deg[0])
+    if hold_attached:
+        f = np.where(_attached_hold(alpha_deg, f, alpha0, onset_pos, onset_neg), 1.0, f)
+    no_line = slope <= 0.0
+    f = np.where(no_line[:, None], 0.0, f)
+    attached = (1.0 - f) < FULLY_ATTACHED_TOLERANCE
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cl_fs = np.where(attached, cl_lin / 2.0, (cl - cl_lin * f) / (1.0 - f))
+    return DynamicStallInputs(
+        alpha0_deg=alpha0,
+        cl_alpha_per_rad=np.degrees(slope),
+        stall_onset_deg=np.where(no_line, np.nan, onset_pos),
+        stall_onset_neg_deg=np.where(no_line, np.nan, onset_neg),
+        f_separation=f,
+        cl_fs=cl_fs,
+    )
+
+
+def dynamic_stall_inputs(
+    alpha_deg: ArrayLike,
+    cl: ArrayLike,
+    *,
+    hold_attached: bool = True,
+) -> DynamicStallInputs:
+    """Static inputs of a dynamic-stall model for one table or many (rows of ``cl``).
+
+    Parameters
+    ----------
+    alpha_deg : array_like
+        Angles [deg], increasing, ``(na,)``; the full range -180..180 for a served table.
+    cl : array_like
+        Lift coefficient ``(na,)`` or ``(k, na)`` (one row per blade station).
+    hold_attached : bool
+        Hold f at 1 over the attached range (default), so noise in measured lift near the
+        line does not make f dip below 1 where the flow is attached.
+
+    Returns
+    -------
+    DynamicStallInputs
+        Zero-lift angle and attached lift slope (:func:`attached_lift_line`), separation
+        function f, fully separated lift cl_fs, and the stall-onset angles on both sides.
+
+    Notes
+    -----
+    Kirchhoff flow ``cl = cl_lin ((1 + sqrt f) / 2)^2`` (Leishman & Beddoes 1989, J. Am.
+    Helicopter Soc. 34(3); from memory) inverted as ``f = (2 sqrt(cl / cl_lin) - 1)^2`` with
+    ``cl / cl_lin`` clipped to [0, 1] and ``f = 0`` where ``sqrt(cl / cl_lin) < 1/2``;
+    ``cl_fs = (cl - cl_lin f) / (1 - f)``, and ``cl_lin / 2`` where f = 1 (Hansen, Gaunaa &
+    Madsen 2004, "A Beddoes-Leishman type dynamic stall model in state-space and indicial
+    formulations", Risoe-R-1354; from memory).
+
+    The stall onset on the positive side is the first angle beyond the lift line's fit window
+    (alpha0 + 5 deg, where the flow is attached by construction and ``cl / cl_lin`` is
+    ill-conditioned next to alpha0) where f <= 0.7 (:data:`STALL_ONSET_SEPARATION`); on the
+    negative side likewise below alpha0 - 5 deg. The attached range, where f is held at 1,
+    is the fit window extended on each side to the outermost angle short of the onset at
+    which the lift reaches the line (f = 1). A table without
+    lift (a cylinder) has f = 0 everywhere, cl_fs = cl and no onset (NaN).
+    """
+    alpha = np.asarray(alpha_deg, dtype=np.float64)
+    rows = np.atleast_2d(np.asarray(cl, dtype=np.float64))
+    slope, alpha0 = _lift_line_arrays(alpha, rows)
+    return _dynamic_stall_arrays(alpha, rows, slope, alpha0, hold_attached=hold_attached)
+
+
 def separation_function(
     polar: Polar,
     *,
     cl_alpha_per_rad: float | None = None,
     alpha0_deg: float | None = None,
+    hold_attached: bool = False,
 ) -> tuple[FloatArray, FloatArray]:
     """Kirchhoff separation function and fully separated lift over the polar's angles.
 
@@ -232,6 +433,8 @@ def separation_function(
         Attached-flow lift slope [1/rad]; fitted by :func:`attached_lift_line` when omitted.
     alpha0_deg : float, optional
         Zero-lift angle [deg]; fitted when omitted.
+    hold_attached : bool
+        Hold f at 1 over the attached range (as :func:`dynamic_stall_inputs` does).
 
     Returns
     -------
@@ -242,25 +445,14 @@ def separation_function(
 
     Notes
     -----
-    Kirchhoff flow, ``cl = cl_lin ((1 + sqrt f) / 2)^2`` (Leishman & Beddoes 1989, "A
-    semi-empirical model for dynamic stall", J. Am. Helicopter Soc. 34(3); from memory), inverted as
-    ``f = (2 sqrt(cl / cl_lin) - 1)^2`` with ``cl / cl_lin`` clipped to [0, 1] and ``f = 0``
-    where ``sqrt(cl / cl_lin) < 1/2``; the fully separated lift
-    ``cl_fs = (cl - cl_lin f) / (1 - f)``, and ``cl_lin / 2`` where ``1 - f < 1e-9``
-    (Hansen, Gaunaa & Madsen 2004, "A Beddoes-Leishman type dynamic stall model in
-    state-space and indicial formulations", Risoe-R-1354; from memory, equation numbers not
-    quoted). Where cl_lin is zero (at alpha0) the flow counts as attached (f = 1).
+    The formulas and sources are those of :func:`dynamic_stall_inputs` (one kernel). Where
+    cl_lin is zero (at alpha0) the flow counts as attached (f = 1).
     """
     fit_slope, fit_alpha0 = attached_lift_line(polar)
     slope = fit_slope if cl_alpha_per_rad is None else float(cl_alpha_per_rad)
     alpha0 = fit_alpha0 if alpha0_deg is None else float(alpha0_deg)
-    cl = polar.cl
-    cl_lin = slope * np.radians(polar.alpha_deg - alpha0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.where(cl_lin != 0.0, cl / cl_lin, 1.0)
-    root = np.sqrt(np.clip(ratio, 0.0, 1.0))
-    f = np.where(root >= 0.5, (2.0 * root - 1.0) ** 2, 0.0)
-    attached = (1.0 - f) < FULLY_ATTACHED_TOLERANCE
-    with np.errstate(divide="ignore", invalid="ignore"):
-        cl_fs = np.where(attached, cl_lin / 2.0, (cl - cl_lin * f) / (1.0 - f))
-    return f, cl_fs
+    found = _dynamic_stall_arrays(
+        polar.alpha_deg, polar.cl[None, :], np.array([np.radians(slope)]), np.array([alpha0]),
+        hold_attached=hold_attached,
+    )
+    return found.f_separation[0], found.cl_fs[0]

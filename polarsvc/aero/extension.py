@@ -8,12 +8,15 @@ Construction (angles in deg; ``a_lo..a_hi`` is the measured range):
    meet the last measured value, the offset decaying linearly to zero at 90 deg; likewise
    from the lower end to -90 deg with the model anchored at the negative stall point.
    Hence ``cl(+-90) = 0`` and ``cd(+-90) = cd_max`` for Viterna-Corrigan.
-2. **Trailing edge first**, ``|alpha| > 90``: the inner curve mirrored about +-90 deg,
-   ``cl(alpha) = -k C_cl(180 - alpha)``, ``cd(alpha) = C_cd(180 - alpha)`` for alpha > 90 and
-   ``cl(alpha) = -k C_cl(-180 - alpha)``, ``cd(alpha) = C_cd(-180 - alpha)`` for alpha < -90,
-   with ``k`` = ``trailing_edge_lift_factor`` (0.7, common practice, no single source). Both
-   sides meet at +-180 with ``cl = -k cl(0)`` and ``cd = cd(0)``: the table is periodic and
-   continuous (even in slope) through 180 deg.
+2. **Trailing edge first**, ``|alpha| > 90``: the inner lift curve mirrored about +-90 deg,
+   ``cl(alpha) = -k C_cl(180 - alpha)`` for alpha > 90 and ``cl(alpha) = -k C_cl(-180 -
+   alpha)`` for alpha < -90, with ``k`` = ``trailing_edge_lift_factor`` (0.7, common practice,
+   no single source). Drag by the reverse-flow rule ``cd = cd_max sin^2 a + cd_rev cos^2 a``
+   (``cd_rev`` = :data:`REVERSE_FLOW_CD`, at least cd(0); common practice, no source): with
+   the sharp trailing edge leading the flow separates at once, so the drag at 180 deg is not
+   the leading-edge drag bucket. ``trailing_edge_drag="mirror"`` keeps the mirrored inner
+   drag curve, ``cd(alpha) = C_cd(180 - alpha)`` (cd(180) = cd(0)). Both sides meet at +-180
+   with ``cl = -k cl(0)``: the table is periodic and continuous through 180 deg.
 3. A table that already reaches beyond +-90 deg gets, outside its data, the offset that makes
    the curve meet its end values, decaying linearly along the circle to zero at the nearer of
    +-90 deg not covered by data.
@@ -40,6 +43,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from polarsvc.aero.characteristics import _stall_angle_arrays
 from polarsvc.aero.errors import (
     InsufficientDataError,
     ParameterError,
@@ -70,9 +74,20 @@ memory)."""
 
 DEFAULT_TRAILING_EDGE_LIFT_FACTOR = 0.7
 DEFAULT_EXTENSION_STEP_DEG = 1.0
-STALL_SEARCH_DEG = 30.0
-"""Stall angles are searched within +-30 deg of zero, which keeps the flat-plate lift peak near
-45 deg out of the search (common practice, no source)."""
+
+TRAILING_EDGE_DRAG_RULES: tuple[str, ...] = ("reverse-flow", "mirror")
+"""Drag with the trailing edge first (|alpha| > 90 deg): ``"reverse-flow"`` (default),
+``cd = cd_max sin^2 a + cd_reverse cos^2 a``; ``"mirror"``, the inner drag curve mirrored
+about +-90 deg (so cd(180) = cd(0), the leading-edge drag bucket)."""
+
+DEFAULT_TRAILING_EDGE_DRAG = "reverse-flow"
+
+REVERSE_FLOW_CD = 0.05
+"""Drag coefficient at 180 deg of the reverse-flow rule: the sharp trailing edge leads, the
+flow separates from it at once and the section drags like a thick plate edge-on, several times
+the drag bucket (common practice, no source; symmetric sections tested through 180 deg show
+cd(180) of a few hundredths, Sheldahl & Klimas 1981, SAND80-2114, from memory). Never below
+the section's own cd(0)."""
 
 CYLINDER_THICKNESS = 1.0
 
@@ -197,14 +212,11 @@ def _stall_angles(
     negative: float | None,
 ) -> tuple[float, float]:
     """Positive stall at the global cl maximum over (0, 30] deg, negative stall at the global
-    cl minimum over [-30, 0) deg, unless given."""
+    cl minimum over [-30, 0) deg (:func:`~polarsvc.aero.characteristics._stall_angle_arrays`),
+    unless given."""
     a_lo, a_hi = float(alpha[0]), float(alpha[-1])
     if positive is None:
-        mask = (alpha > 0.0) & (alpha <= STALL_SEARCH_DEG)
-        if not mask.any():
-            mask = alpha > 0.0
-        index = np.flatnonzero(mask)
-        positive = float(alpha[index[np.argmax(cl[mask])]])
+        positive = float(_stall_angle_arrays(alpha, cl[None, :], a_lo, a_hi)[0])
     else:
         positive = float(positive)
         if not (0.0 < positive <= min(a_hi, 89.0)):
@@ -214,11 +226,9 @@ def _stall_angles(
                 f"got {show_value(positive)}",
             )
     if negative is None:
-        mask = (alpha < 0.0) & (alpha >= -STALL_SEARCH_DEG)
-        if not mask.any():
-            mask = alpha < 0.0
-        index = np.flatnonzero(mask)
-        negative = float(alpha[index[np.argmin(cl[mask])]])
+        negative = float(
+            _stall_angle_arrays(alpha, cl[None, :], a_lo, a_hi, positive=False)[0]
+        )
     else:
         negative = float(negative)
         if not (max(a_lo, -89.0) <= negative < 0.0):
@@ -290,12 +300,20 @@ class _InnerCurve:
 
 
 def _full_circle(
-    inner: _InnerCurve, alpha: FloatArray, k: float
+    inner: _InnerCurve, alpha: FloatArray, k: float, drag_rule: str
 ) -> tuple[FloatArray, FloatArray]:
-    """The continuous, periodic model on -180..180 deg (inner curve plus mirror)."""
+    """The continuous, periodic model on -180..180 deg (inner curve, mirrored lift and the
+    trailing-edge-first drag of ``drag_rule``)."""
     x = np.where(alpha > 90.0, 180.0 - alpha, np.where(alpha < -90.0, -180.0 - alpha, alpha))
     cl, cd = inner(x)
     mirrored = np.abs(alpha) > 90.0
+    if drag_rule == "reverse-flow":
+        cd_zero = float(inner(np.zeros(1))[1][0])
+        cd_reverse = max(REVERSE_FLOW_CD, cd_zero)
+        a = np.radians(alpha)
+        cd = np.where(
+            mirrored, inner.cd_max * np.sin(a) ** 2 + cd_reverse * np.cos(a) ** 2, cd
+        )
     return np.where(mirrored, -k * cl, cl), cd
 
 
@@ -389,6 +407,7 @@ def extend_full_range(
     alpha_stall_neg_deg: float | None = None,
     trailing_edge_lift_factor: float = DEFAULT_TRAILING_EDGE_LIFT_FACTOR,
     step_deg: float = DEFAULT_EXTENSION_STEP_DEG,
+    trailing_edge_drag: str = DEFAULT_TRAILING_EDGE_DRAG,
 ) -> Polar:
     """Extend a section polar to -180..180 deg.
 
@@ -413,6 +432,11 @@ def extend_full_range(
         Scale ``k`` in [0, 1] of the mirrored lift with the trailing edge first.
     step_deg : float
         Step [deg] of the extension rows (multiples of it outside the data).
+    trailing_edge_drag : {"reverse-flow", "mirror"}
+        Drag with the trailing edge first (:data:`TRAILING_EDGE_DRAG_RULES`): by default
+        ``cd = cd_max sin^2 a + cd_rev cos^2 a`` with ``cd_rev = max(0.05, cd(0))``
+        (:data:`REVERSE_FLOW_CD`), continuous with cd_max at +-90 deg and level at 180 deg;
+        ``"mirror"`` keeps the inner drag curve mirrored about +-90 deg (cd(180) = cd(0)).
 
     Returns
     -------
@@ -438,6 +462,10 @@ def extend_full_range(
     """
     if method not in EXTENSION_METHODS:
         raise UnknownMethodError("method", method, EXTENSION_METHODS)
+    if trailing_edge_drag not in TRAILING_EDGE_DRAG_RULES:
+        raise UnknownMethodError(
+            "trailing_edge_drag", trailing_edge_drag, TRAILING_EDGE_DRAG_RULES
+        )
     k = float(trailing_edge_lift_factor)
     if not (math.isfinite(k) and 0.0 <= k <= 1.0):
         raise ParameterError(
@@ -454,7 +482,11 @@ def extend_full_range(
     a_lo, a_hi = float(alpha[0]), float(alpha[-1])
     ext_alpha = _extension_angles(step_deg, a_lo, a_hi)
     cylinder = polar.thickness == CYLINDER_THICKNESS
-    report: dict[str, Any] = {"step": "extend_full_range", "step_deg": float(step_deg)}
+    report: dict[str, Any] = {
+        "step": "extend_full_range",
+        "step_deg": float(step_deg),
+        "measured_range_deg": [a_lo, a_hi],
+    }
     if cylinder:
         ext_cl = _arc_offset(ext_alpha, a_lo, a_hi, cl[-1], cl[0], zero_at_right_angles=False)
         ext_cd = _arc_offset(ext_alpha, a_lo, a_hi, cd[-1], cd[0], zero_at_right_angles=False)
@@ -472,7 +504,9 @@ def extend_full_range(
             )
         stall_pos, stall_neg = _stall_angles(alpha, cl, alpha_stall_pos_deg, alpha_stall_neg_deg)
         inner = _InnerCurve(alpha, cl, cd, method, cd_max_value, stall_pos, stall_neg)
-        both_cl, both_cd = _full_circle(inner, np.concatenate([ext_alpha, [a_lo, a_hi]]), k)
+        both_cl, both_cd = _full_circle(
+            inner, np.concatenate([ext_alpha, [a_lo, a_hi]]), k, trailing_edge_drag
+        )
         model_cl, end_cl = both_cl[:-2], both_cl[-2:]
         model_cd, end_cd = both_cd[:-2], both_cd[-2:]
         ext_cl = model_cl + _arc_offset(
@@ -500,6 +534,7 @@ def extend_full_range(
             cd_max=cd_max_value,
             aspect_ratio=None if aspect_ratio is None else float(aspect_ratio),
             trailing_edge_lift_factor=k,
+            trailing_edge_drag=trailing_edge_drag,
             stall_angles_deg={"positive": stall_pos, "negative": stall_neg},
         )
     neighbours = _join_neighbours(alpha, ext_alpha)

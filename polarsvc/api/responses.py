@@ -259,6 +259,7 @@ def table_response(
     meta: Mapping[str, Any],
     stations_radius_m: list[float] | None = None,
     extra_headers: Mapping[str, str] | None = None,
+    extra_comments: Mapping[str, str] | None = None,
 ) -> Response:
     """Encode a table in the chosen format, with ETag, 304 on a matching If-None-Match, and
     the content hash in ``X-Polarsvc-Content-Hash``.
@@ -266,6 +267,8 @@ def table_response(
     The ETag names the content hash, the format and a digest of the metadata (which holds
     the inputs' current review states), so a review change is never hidden behind a 304.
     The encoded arrays are kept in :data:`ENCODED` under the content hash.
+    ``extra_comments`` are further ``# key: value`` lines of the CSV form (values the metadata
+    holds only in nested form, such as per-station values).
     """
     meta_bytes = dumps(meta)
     etag = etag_for(f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}", fmt)
@@ -288,7 +291,8 @@ def table_response(
         rows = ENCODED.get(key, lambda: csv_rows(
             alpha_deg, columns, stations_radius_m=stations_radius_m
         ))
-        return Response(csv_comments(meta) + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
+        head = csv_comments(meta) + csv_comment_lines(extra_comments).encode("utf-8")
+        return Response(head + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
     arrays_json = ENCODED.get(key, lambda: _json_arrays(alpha_deg, columns))
     body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
     return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)

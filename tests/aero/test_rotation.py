@@ -21,7 +21,7 @@ from polarsvc.aero import (
     snel_factor,
 )
 
-from .synthetic import kirchhoff_polar
+from .synthetic import TWO_PI, kirchhoff_polar
 
 
 def piecewise_polar() -> Polar:
@@ -43,12 +43,13 @@ def test_snel_factor_published_value() -> None:
 
 def test_snel_augmented_lift_worked_by_hand() -> None:
     p = piecewise_polar()
-    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2)
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2,
+                         fade_start_deg=30.0, fade_end_deg=50.0)
     i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
     # by hand: cl_lin(20) = 2 pi * radians(22) = 6.283185 * 0.383972 = 2.412570;
     # cl_3d = 1.2 + 0.12 (2.412570 - 1.2) = 1.2 + 0.145508 = 1.345508 (Snel et al. 1994)
     assert q.cl[i20] == pytest.approx(1.345508, abs=2e-6)
-    # at 40 deg the fade weight is (50 - 40) / (50 - 30) = 0.5 (common practice, no source)
+    # at 40 deg, the middle of the fade, the weight 1 - 3 s^2 + 2 s^3 is 0.5 at s = 0.5
     i40 = int(np.flatnonzero(p.alpha_deg == 40.0)[0])
     cl_lin40 = 2 * math.pi * math.radians(42.0)
     assert q.cl[i40] == pytest.approx(1.2 + 0.5 * 0.12 * (cl_lin40 - 1.2), rel=1e-9)
@@ -93,21 +94,23 @@ def test_chaviaropoulos_hansen_factor_worked_by_hand() -> None:
 def test_du_selig_and_ch_drag_directions() -> None:
     p = piecewise_polar()
     i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
-    ds = augment_rotation(p, "du-selig", r_over_R=0.3, chord_over_r=0.1, tip_speed_ratio=7.0)
+    ds = augment_rotation(p, "du-selig", r_over_R=0.3, chord_over_r=0.1, tip_speed_ratio=7.0,
+                          fade_start_deg=30.0, fade_end_deg=50.0)
     # cd_3d = cd - f_cd (cd - cd0), cd0 = cd at alpha0 = 0.01 (Du & Selig 1998, from memory)
     assert ds.cd[i20] == pytest.approx(p.cd[i20] - 0.0336698 * (p.cd[i20] - 0.01), abs=1e-8)
     assert ds.cl[i20] == pytest.approx(
         1.2 + 0.0416575 * (2 * math.pi * math.radians(22.0) - 1.2), abs=1e-6
     )
     ch = augment_rotation(p, "chaviaropoulos-hansen", r_over_R=0.3, chord_over_r=0.2,
-                          twist_deg=10.0)
+                          twist_deg=10.0, fade_start_deg=30.0, fade_end_deg=50.0)
     # the same form for drag on (cd - cd0) (Chaviaropoulos & Hansen 2000, from memory)
     assert ch.cd[i20] == pytest.approx(p.cd[i20] + 0.4138648 * (p.cd[i20] - 0.01), abs=1e-8)
 
 
 def test_given_lift_slope_used() -> None:
     p = piecewise_polar()
-    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2, cl_alpha_per_rad=5.0)
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2, cl_alpha_per_rad=5.0,
+                         fade_start_deg=30.0, fade_end_deg=50.0)
     i20 = int(np.flatnonzero(p.alpha_deg == 20.0)[0])
     assert q.cl[i20] == pytest.approx(1.2 + 0.12 * (5.0 * math.radians(22.0) - 1.2), rel=1e-9)
 
@@ -120,14 +123,76 @@ def test_no_correction_beyond_fade_end_and_90_deg() -> None:
     with pytest.raises(ParameterError) as info:
         augment_rotation(e, "snel", r_over_R=0.2, chord_over_r=0.3, fade_end_deg=95.0)
     assert info.value.parameter == "fade_end_deg"
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(e, "snel", r_over_R=0.2, chord_over_r=0.3, fade_start_deg=40.0,
+                         fade_end_deg=30.0)
+    assert info.value.parameter == "fade_end_deg"
 
 
-def test_fade_weight_linear() -> None:
-    # full to 30 deg, linear to zero at 50 deg, symmetric in |alpha| (common practice)
+def test_fade_weight_smooth_step() -> None:
+    # 1 - 3 s^2 + 2 s^3 between 30 and 50 deg (the cubic Hermite step; common practice, no
+    # source). By hand: s = 0.25 -> 1 - 0.1875 + 0.03125 = 0.84375; s = 0.5 -> 0.5;
+    # s = 0.75 -> 1 - 1.6875 + 0.84375 = 0.15625.
     np.testing.assert_allclose(
-        fade_weight([-60.0, -40.0, 0.0, 30.0, 40.0, 50.0], 30.0, 50.0),
-        [0.0, 0.5, 1.0, 1.0, 0.5, 0.0],
+        fade_weight([-60.0, 0.0, 30.0, 35.0, 40.0, 45.0, 50.0, 70.0], 30.0, 50.0),
+        [1.0, 1.0, 1.0, 0.84375, 0.5, 0.15625, 0.0, 0.0], rtol=0, atol=1e-15,
     )
+    # per-station ends give one row per station
+    rows = fade_weight([10.0, 20.0], [0.0, 10.0], [20.0, 30.0])
+    np.testing.assert_allclose(rows, [[0.5, 0.0], [1.0, 0.5]], rtol=0, atol=1e-15)
+
+
+def test_fade_tied_to_the_stall_angle_worked_by_hand() -> None:
+    # piecewise_polar: the lift maximum over (0, 30] deg is first reached at 7 deg (cl = 1.2),
+    # so the default fade runs from 7 - 5 = 2 deg to 7 + 25 = 32 deg. At 17 deg, s = 0.5,
+    # w = 0.5: cl_3d = 1.2 + 0.5 * 0.12 * (2 pi radians(19) - 1.2)
+    #   = 1.2 + 0.06 * (2.083583 - 1.2) = 1.253015 (Snel et al. 1994 for the factor)
+    p = piecewise_polar()
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2)
+    step = q.history[-1]
+    assert (step["stall_deg"], step["fade_start_deg"], step["fade_end_deg"]) == (7.0, 2.0, 32.0)
+    i17 = int(np.flatnonzero(p.alpha_deg == 17.0)[0])
+    assert q.cl[i17] == pytest.approx(1.253015, abs=2e-6)
+    # beyond the fade end nothing changes
+    far = p.alpha_deg >= 32.0
+    np.testing.assert_array_equal(q.cl[far], p.cl[far])
+    # the offsets move both ends with the stall angle
+    r = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2,
+                         fade_start_offset_deg=0.0, fade_end_offset_deg=10.0)
+    assert (r.history[-1]["fade_start_deg"], r.history[-1]["fade_end_deg"]) == (7.0, 17.0)
+
+
+def test_negative_side_only_when_asked() -> None:
+    # below alpha0 = -2 deg the lift sits 0.877 short of the line from -11 deg down
+    # (piecewise_polar): no change by default, a change when asked
+    p = piecewise_polar()
+    default = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2)
+    below = p.alpha_deg < -2.0
+    np.testing.assert_array_equal(default.cl[below], p.cl[below])
+    asked = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2, negative_side=True)
+    # negative stall: the lift minimum over [-30, 0) is first reached at -20 deg (the data's
+    # lower end), so the mirrored fade runs from -15 to -45 deg; at -12 deg w = 1:
+    # cl_3d = -0.877 + 0.12 (2 pi radians(-10) + 0.877) = -0.877 + 0.12 * (-1.096623 + 0.877)
+    cl_flat = 2.0 * math.pi * math.radians(-8.0)
+    i12 = int(np.flatnonzero(p.alpha_deg == -12.0)[0])
+    expected = cl_flat + 0.12 * (2.0 * math.pi * math.radians(-10.0) - cl_flat)
+    assert asked.cl[i12] == pytest.approx(expected, abs=1e-9)
+    assert asked.history[-1]["stall_neg_deg"] == -20.0
+
+
+def test_clipped_factors_and_calibration_range_reported() -> None:
+    # Snel at c/r = 0.7: 3 * 0.49 = 1.47, clipped to 1 (the module's rule); c/r 0.7 lies
+    # above the 0.4 bound recorded for Snel
+    q = augment_rotation(piecewise_polar(), "snel", r_over_R=0.1, chord_over_r=0.7)
+    step = q.history[-1]
+    assert step["clipped_factors"] == [
+        {"factor": "lift_factor", "raw": pytest.approx(1.47), "applied": 1.0}
+    ]
+    assert step["chord_over_r_outside_calibration"] is True
+    assert step["calibration_chord_over_r"]["high"] == 0.4
+    inside = augment_rotation(piecewise_polar(), "snel", r_over_R=0.3, chord_over_r=0.2)
+    assert inside.history[-1]["clipped_factors"] == []
+    assert inside.history[-1]["chord_over_r_outside_calibration"] is False
 
 
 @pytest.mark.parametrize(
@@ -172,19 +237,29 @@ def test_factor_functions_vectorised() -> None:
     twist=st.floats(-5.0, 30.0),
 )
 def test_property_correction_bounded(model, c_r, r_R, tsr, twist) -> None:
-    """The lift moves towards the attached line and never past it; nothing changes beyond
-    the fade end (definitions in polarsvc.aero.rotation; common practice, no source)."""
-    e = extend_full_range(kirchhoff_polar())
+    """The lift moves towards the attached line cl_lin = 2 pi (alpha + 2 deg) of the
+    synthetic polar and never past it; nothing changes beyond the fade end or below alpha0;
+    the drag moves by the published forms (Du-Selig towards cd0, Chaviaropoulos-Hansen away
+    from it, Snel not at all) by at most the full excess over cd0 (definitions in
+    polarsvc.aero.rotation; common practice, no source)."""
+    e = extend_full_range(kirchhoff_polar(alpha0_deg=-2.0))
     q = augment_rotation(e, model, r_over_R=r_R, chord_over_r=c_r, tip_speed_ratio=tsr,
-                         twist_deg=twist)
+                         twist_deg=twist, cl_alpha_per_rad=TWO_PI)
     step = q.history[-1]
-    cl_lin = np.radians(step["cl_alpha_per_rad"]) * 0 + step["cl_alpha_per_rad"] * np.radians(
-        e.alpha_deg - step["alpha0_deg"]
-    )
+    assert step["alpha0_deg"] == pytest.approx(-2.0, abs=1e-9)
+    cl_lin = TWO_PI * np.radians(e.alpha_deg + 2.0)
     lo = np.minimum(e.cl, cl_lin) - 1e-12
     hi = np.maximum(e.cl, cl_lin) + 1e-12
     assert np.all((q.cl >= lo) & (q.cl <= hi))
-    far = np.abs(e.alpha_deg) >= 50.0
-    np.testing.assert_array_equal(q.cl[far], e.cl[far])
-    np.testing.assert_array_equal(q.cd[far], e.cd[far])
-    assert np.all(q.cd > 0)
+    unchanged = (e.alpha_deg >= step["fade_end_deg"]) | (e.alpha_deg <= -2.0)
+    np.testing.assert_array_equal(q.cl[unchanged], e.cl[unchanged])
+    np.testing.assert_array_equal(q.cd[unchanged], e.cd[unchanged])
+    cd0 = float(np.interp(-2.0, e.alpha_deg, e.cd))
+    excess = np.maximum(e.cd - cd0, 0.0)
+    change = q.cd - e.cd
+    if model == "snel":
+        np.testing.assert_array_equal(change, 0.0)
+    elif model == "du-selig":
+        assert np.all((change <= 1e-15) & (change >= -excess - 1e-15))
+    else:
+        assert np.all((change >= -1e-15) & (change <= excess + 1e-15))

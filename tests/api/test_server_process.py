@@ -68,6 +68,11 @@ def test_demo_server_serves_blade_sets_to_the_client(demo_server):
         blade = client.blade_set("skerry-48")
         assert blade.cl.shape == (20, 721)
         assert blade.alpha_deg[0] == -180.0 and blade.alpha_deg[-1] == 180.0
+        # the dynamic-stall inputs come with the blade set
+        assert blade.f_separation.shape == blade.cl_fs.shape == (20, 721)
+        assert len(blade.dynamic_stall) == 20
+        assert blade.dynamic_stall[0]["stall_onset_deg"] is None  # the cylinder root
+        assert 0.0 < blade.dynamic_stall[10]["stall_onset_deg"] < 30.0
         again = client.blade_set("skerry-48")
         np.testing.assert_array_equal(again.cd, blade.cd)
         assert again.content_hash == blade.content_hash
@@ -113,7 +118,7 @@ def test_cli_fetch_writes_a_blade_set_file(demo_server, tmp_path):
     lines = output.read_text().splitlines()
     assert lines[0].startswith("# ")
     data = [x for x in lines if not x.startswith("#")]
-    assert data[0] == "radius_m,alpha_deg,cl,cd,cm"
+    assert data[0] == "radius_m,alpha_deg,cl,cd,cm,f_separation,cl_fs"
     assert len(data) == 1 + 20 * 721
 
 

@@ -112,12 +112,20 @@ def test_blade_set_matches_the_core_called_directly(demo_client, tokens):
         rotor_radius_m=blade["rotor_radius_m"],
         tip_speed_ratio=omega * blade["rotor_radius_m"] / operating["wind_speed_m_s"],
         rotation_model="snel",
+        # blade sets take cd_max from the blade: AR = 46.4^2 / 101.4218 m^2 (numpy.trapezoid
+        # over the seed blade's stations, run once) = 21.2278
+        aspect_ratio=served["recipe"]["params"]["extension"]["aspect_ratio"],
     )
+    assert served["recipe"]["params"]["extension"]["aspect_ratio"] == pytest.approx(
+        21.2278, abs=1e-4)
     assert np.array(served["cl"]).shape == (len(stations), 721)
     np.testing.assert_array_equal(served["alpha_deg"], expected.alpha_deg)
     np.testing.assert_allclose(served["cl"], expected.cl, rtol=0, atol=0)
     np.testing.assert_allclose(served["cd"], expected.cd, rtol=0, atol=0)
     np.testing.assert_allclose(served["cm"], expected.cm, rtol=0, atol=0)
+    np.testing.assert_allclose(served["f_separation"], expected.dynamic_stall.f_separation,
+                               rtol=0, atol=0)
+    np.testing.assert_allclose(served["cl_fs"], expected.dynamic_stall.cl_fs, rtol=0, atol=0)
     assert len(served["inputs"]) == 21  # 7 airfoils x 3 Reynolds numbers, clean
     assert served["draws_on_deprecated"] is False
     assert served["reports"]["stations"][0]["thickness_used"] == 1.0
@@ -155,13 +163,21 @@ def test_blade_set_in_every_format(demo_client, tokens, fmt):
         decode = decode_npz if fmt == "npz" else decode_arrow
         table = decode(response.content)
         assert table.columns["cl"].shape == (20, 721)
+        assert table.columns["f_separation"].shape == table.columns["cl_fs"].shape == (20, 721)
         assert table.meta["blade"]["name"] == "skerry-48"
         radii = [s["radius_m"] for s in table.meta["reports"]["stations"]]
         np.testing.assert_array_equal(table.radius_m, radii)
+        stall = table.meta["reports"]["stations"][9]["dynamic_stall"]
+        assert stall["stall_onset_deg"] > 0
     elif fmt == "csv":
         lines = [x for x in response.text.splitlines() if not x.startswith("#")]
-        assert lines[0] == "radius_m,alpha_deg,cl,cd,cm"
+        assert lines[0] == "radius_m,alpha_deg,cl,cd,cm,f_separation,cl_fs"
         assert len(lines) == 1 + 20 * 721
+        comments = [x for x in response.text.splitlines() if x.startswith("#")]
+        assert any("dynamic_stall_station_9" in x and "stall_onset_deg" in x for x in comments)
+    else:
+        body = response.json()
+        assert np.array(body["f_separation"]).shape == (20, 721)
 
 
 def test_unknown_things_answer_404_and_bad_methods_422(demo_client, tokens):

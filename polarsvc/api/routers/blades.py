@@ -12,6 +12,7 @@ from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
     ExtensionQuery,
+    FadeQuery,
     FormatQuery,
     GridStep,
     approved_only_setting,
@@ -69,6 +70,7 @@ def get_blade(key: str, session: ReadSession, _: Reader):
 
 def blade_set_query(
     extension: ExtensionQuery,
+    fade: FadeQuery,
     rotation_model: Annotated[
         str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
     ] = "snel",
@@ -86,7 +88,7 @@ def blade_set_query(
         "thickness_method": thickness_method,
         "clamp": clamp,
         "extension": extension,
-        "rotation": {"model": rotation_model},
+        "rotation": {"model": rotation_model, **(fade if rotation_model != "none" else {})},
         "step_deg": step_deg,
         "wind_speed_m_s": wind_speed_m_s,
         "rotor_speed_rpm": rotor_speed_rpm,
@@ -100,10 +102,15 @@ BladeSetQuery = Annotated[dict[str, Any], Depends(blade_set_query)]
     "/blades/{key}/tables",
     summary="The full set of station tables of a blade (stations x angles)",
     description=(
-        "Extends every family member to -180..180 deg, interpolates to each station's "
+        "Extends every family member to -180..180 deg (broadside drag from the blade's own "
+        "aspect ratio unless aspect_ratio or cd_max is given), interpolates to each station's "
         "Reynolds number (from the operating point, no induction) and thickness, and applies "
-        "rotational augmentation. JSON arrays cl, cd, cm have one row per station; the CSV "
-        "form is long (station radius, alpha_deg, coefficients)."
+        "rotational augmentation (positive-stall side, smooth fade tied to each station's "
+        "stall angle). JSON arrays cl, cd, cm, and the dynamic-stall inputs f_separation "
+        "(Kirchhoff separation function) and cl_fs (fully separated lift), have one row per "
+        "station; per-station alpha0, lift slope and stall onset are in "
+        "reports.stations[i].dynamic_stall. The CSV form is long (station radius, alpha_deg, "
+        "coefficients)."
     ),
 )
 def blade_tables(

@@ -217,6 +217,11 @@ def extension_query(
     trailing_edge_lift_factor: Annotated[
         float, Query(ge=0, le=2, description="lift scale beyond 90 deg")
     ] = 0.7,
+    trailing_edge_drag: Annotated[
+        str,
+        Query(description="drag beyond 90 deg: reverse-flow (default) or mirror (the "
+                          "leading-edge drag curve mirrored, cd(180) = cd(0))"),
+    ] = "reverse-flow",
 ) -> dict[str, Any]:
     """The full-range extension settings of a request (one set of query parameters for every
     endpoint that extends)."""
@@ -224,10 +229,50 @@ def extension_query(
         method=method, aspect_ratio=aspect_ratio, cd_max=cd_max,
         alpha_stall_pos_deg=alpha_stall_pos_deg, alpha_stall_neg_deg=alpha_stall_neg_deg,
         trailing_edge_lift_factor=trailing_edge_lift_factor,
+        trailing_edge_drag=trailing_edge_drag,
     )
 
 
 ExtensionQuery = Annotated[dict[str, Any], Depends(extension_query)]
+
+
+def fade_query(
+    fade_start_deg: Annotated[
+        float | None,
+        Query(ge=-90, le=90, description="absolute fade start [deg] (default: tied to the "
+                                         "section's stall angle)"),
+    ] = None,
+    fade_end_deg: Annotated[
+        float | None,
+        Query(ge=-90, le=90, description="absolute fade end [deg] (default: tied to the "
+                                         "section's stall angle)"),
+    ] = None,
+    fade_start_offset_deg: Annotated[
+        float, Query(ge=-60, le=60, description="fade start relative to the stall angle")
+    ] = recipes.DEFAULT_FADE_START_OFFSET_DEG,
+    fade_end_offset_deg: Annotated[
+        float, Query(ge=-60, le=90, description="fade end relative to the stall angle")
+    ] = recipes.DEFAULT_FADE_END_OFFSET_DEG,
+    negative_side: Annotated[
+        bool, Query(description="also correct below the zero-lift angle")
+    ] = False,
+    rotation_order: Annotated[
+        str, Query(description="extend-then-augment (default) or augment-then-extend")
+    ] = recipes.DEFAULT_ROTATION_ORDER,
+) -> dict[str, Any]:
+    """The augmentation's fade and order settings of a request (keywords of
+    :func:`polarsvc.recipes.rotation_params`)."""
+    return {
+        "fade_start_deg": fade_start_deg,
+        "fade_end_deg": fade_end_deg,
+        "fade_start_offset_deg": fade_start_offset_deg,
+        "fade_end_offset_deg": fade_end_offset_deg,
+        "negative_side": negative_side,
+        "order": rotation_order,
+    }
+
+
+FadeQuery = Annotated[dict[str, Any], Depends(fade_query)]
 
 
 @router.get("/polars/{content_hash}/resampled", summary="A revision resampled onto a grid")
@@ -270,15 +315,13 @@ def extended(
 )
 def augmented(
     content_hash: str, request: Request, settings: SettingsDep, _: Reader,
-    extension: ExtensionQuery,
+    extension: ExtensionQuery, fade: FadeQuery,
     r_over_R: Annotated[float, Query(gt=0, le=1, description="station radius / tip radius")],
     chord_over_r: Annotated[float, Query(gt=0, le=10, description="chord / station radius")],
     model: Annotated[str, Query(description="snel, du-selig or chaviaropoulos-hansen")] = "snel",
     tip_speed_ratio: Annotated[float | None, Query(gt=0, le=30)] = None,
     twist_deg: Annotated[float, Query(ge=-90, le=90)] = 0.0,
     cl_alpha_per_rad: Annotated[float | None, Query(gt=0, le=10)] = None,
-    fade_start_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[0],
-    fade_end_deg: Annotated[float, Query(ge=0, le=90)] = recipes.DEFAULT_FADE_DEG[1],
     step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
@@ -289,8 +332,7 @@ def augmented(
         "rotation": recipes.rotation_params(
             model=model, r_over_R=r_over_R, chord_over_r=chord_over_r,
             tip_speed_ratio=tip_speed_ratio, twist_deg=twist_deg,
-            cl_alpha_per_rad=cl_alpha_per_rad, fade_start_deg=fade_start_deg,
-            fade_end_deg=fade_end_deg,
+            cl_alpha_per_rad=cl_alpha_per_rad, **fade,
         ),
         "step_deg": step_deg,
     }
