@@ -26,7 +26,7 @@ ROTOR_CAUTION = rotor.CAUTION
 
 GRID_DEFAULTS = {
     "tip_speed_ratios": {"start": 1.0, "stop": 15.0, "step": 0.25},
-    "pitches_deg": {"start": -5.0, "stop": 30.0, "step": 2.5},
+    "pitches_deg": {"start": -5.0, "stop": 30.0, "step": 5.0},
 }
 """Cp surface grid; its maximum, refined between the grid points, gives the best tip speed
 ratio and the fine pitch."""

@@ -239,8 +239,18 @@ def operating_states(
     )
 
 
-PITCH_SCAN_STEP_DEG = 3.0
-PITCH_SCAN_FIRST_STOP_DEG = 45.0
+PITCH_SCAN_COARSE_STEP_DEG = 6.0
+PITCH_SCAN_COARSE_SPAN_DEG = 48.0
+PITCH_SCAN_STEP_DEG = 1.5
+
+
+def _falling_crossings(
+    geometry: RotorGeometry, alpha_deg: ArrayLike, cl: ArrayLike, cd: ArrayLike,
+    tsr: FloatArray, scale: FloatArray, grid: FloatArray, options: dict[str, Any],
+) -> tuple[FloatArray, NDArray[np.bool_]]:
+    T, P = np.meshgrid(tsr, grid, indexing="ij")
+    excess = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
+    return excess, (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
 
 
 def _pitch_for_rated_power(
@@ -256,42 +266,45 @@ def _pitch_for_rated_power(
 ) -> FloatArray:
     """Pitch towards feather that gives rated power: the first pitch above the fine pitch
     where the power falls through rated (a stalled rotor first gains power when pitched,
-    so the fine pitch itself may lie below rated). Scan in 3 deg steps to 45 deg (one
-    vectorised solve; on to feather only if needed), then the array root finder within the
-    bracketing step."""
-    grid = np.arange(fine_pitch, PITCH_SCAN_FIRST_STOP_DEG + 1e-9, PITCH_SCAN_STEP_DEG)
-    T, P = np.meshgrid(tsr, grid, indexing="ij")
-    excess = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
-    falling = (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
-    if not np.all(falling.any(axis=1)):
-        more = np.arange(grid[-1] + PITCH_SCAN_STEP_DEG, FEATHER_PITCH_DEG + 1e-9,
-                         PITCH_SCAN_STEP_DEG)
-        if more.size == 0 or more[-1] < FEATHER_PITCH_DEG:
-            more = np.append(more, FEATHER_PITCH_DEG)
-        T, P = np.meshgrid(tsr, more, indexing="ij")
-        extra = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
-        grid = np.concatenate([grid, more])
-        excess = np.concatenate([excess, extra], axis=1)
-        falling = (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
+    so the fine pitch itself may lie below rated). Scan in 6 deg steps to 48 deg above the
+    fine pitch (one vectorised solve); where that finds no falling crossing, in 1.5 deg
+    steps up to feather; then the array root finder within the bracketing step."""
+    coarse = fine_pitch + np.arange(0.0, PITCH_SCAN_COARSE_SPAN_DEG + 1e-9,
+                                    PITCH_SCAN_COARSE_STEP_DEG)
+    excess, falling = _falling_crossings(geometry, alpha_deg, cl, cd, tsr, scale, coarse,
+                                         options)
     found = falling.any(axis=1)
-    if not np.all(found):
-        bad = float(speed[int(np.argmin(found))])
-        raise ParameterError(
-            "rated_power_w",
-            f"is not reached at {bad:g} m/s at any pitch between {fine_pitch:g} and "
-            f"{FEATHER_PITCH_DEG:g} deg",
-        )
     k = np.argmax(falling, axis=1)
+    lower = coarse[k]
+    upper = coarse[np.minimum(k + 1, coarse.size - 1)]
     rows = np.arange(tsr.size)
+    f_lower = excess[rows, k]
+    f_upper = excess[rows, np.minimum(k + 1, coarse.size - 1)]
+    if not np.all(found):
+        rest = np.flatnonzero(~found)
+        fine = np.append(np.arange(fine_pitch, FEATHER_PITCH_DEG, PITCH_SCAN_STEP_DEG),
+                         FEATHER_PITCH_DEG)
+        more, falling_more = _falling_crossings(
+            geometry, alpha_deg, cl, cd, tsr[rest], scale[rest], fine, options
+        )
+        hit = falling_more.any(axis=1)
+        if not np.all(hit):
+            bad = float(speed[rest[int(np.argmin(hit))]])
+            raise ParameterError(
+                "rated_power_w",
+                f"is not reached at {bad:g} m/s at any pitch between {fine_pitch:g} and "
+                f"{FEATHER_PITCH_DEG:g} deg",
+            )
+        j = np.argmax(falling_more, axis=1)
+        local = np.arange(rest.size)
+        lower[rest], upper[rest] = fine[j], fine[j + 1]
+        f_lower[rest], f_upper[rest] = more[local, j], more[local, j + 1]
 
     def function(beta: FloatArray, index: np.ndarray) -> FloatArray:
         cp = solve(geometry, alpha_deg, cl, cd, tsr[index], beta, **options).cp
         return scale[index] * cp - 1.0
 
-    roots = bracketed_roots(
-        function, grid[k], grid[k + 1], excess[rows, k], excess[rows, k + 1],
-        f_tol=POWER_TOLERANCE,
-    )
+    roots = bracketed_roots(function, lower, upper, f_lower, f_upper, f_tol=POWER_TOLERANCE)
     return roots.x
 
 
