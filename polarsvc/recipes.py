@@ -577,3 +577,19 @@ def blend_params(
         "extension": dict(extension or extension_params()),
         "step_deg": float(step_deg),
     }
+
+
+def dynamic_stall_comments(stations: Sequence[Mapping[str, Any]] | None) -> dict[str, str]:
+    """One ``key: value`` comment per blade station for text forms (CSV) of a blade set: its
+    radius and dynamic-stall values (zero-lift angle, attached lift slope, stall onsets),
+    keyed ``dynamic_stall_station_<index>``; the arrays are columns."""
+    comments = {}
+    for report in stations or []:
+        values = report.get("dynamic_stall")
+        if values is None:
+            continue
+        text = " ".join(f"{key}={value}" for key, value in values.items())
+        comments[f"dynamic_stall_station_{report['station']}"] = (
+            f"radius_m={report['radius_m']} {text}"
+        )
+    return comments

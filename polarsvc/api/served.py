@@ -2,12 +2,10 @@
 
 from __future__ import annotations
 
-from typing import Any
-
 from fastapi import Request
 from fastapi.responses import Response
 
-from polarsvc import performance
+from polarsvc import performance, recipes
 from polarsvc.api.responses import arrays_response, table_response
 from polarsvc.pipeline import ServedTable
 
@@ -43,20 +41,6 @@ def served_response(
         meta=served.meta(),
         stations_radius_m=radii,
         extra_headers=headers,
-        extra_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
+        extra_comments=recipes.dynamic_stall_comments(stations) if fmt == "csv" else None,
     )
 
-
-def dynamic_stall_comments(stations: list[dict[str, Any]] | None) -> dict[str, str]:
-    """One CSV comment per station with its dynamic-stall values (zero-lift angle, attached
-    lift slope, stall onset); the arrays f_separation and cl_fs are columns."""
-    comments = {}
-    for report in stations or []:
-        values = report.get("dynamic_stall")
-        if values is None:
-            continue
-        text = " ".join(f"{key}={value}" for key, value in values.items())
-        comments[f"dynamic_stall_station_{report['station']}"] = (
-            f"radius_m={report['radius_m']} {text}"
-        )
-    return comments

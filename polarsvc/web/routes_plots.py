@@ -9,7 +9,9 @@ import numpy as np
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
 
+from polarsvc import recipes
 from polarsvc.api.deps import ReadSession
+from polarsvc.formats import table_to_csv
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
@@ -191,6 +193,52 @@ def add_routes(router: APIRouter) -> None:
             title=f"Blade {name}: station tables",
         )
         return svg_response(body, download_name(name, "stations", kind))
+
+    @router.get("/plots/blades/{name}/augmentation-{kind}.svg")
+    def blade_augmentation_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = blade_data(request, session, name)
+        series, colours = view.augmentation_series(_span(request))
+        body = plots.polar_plots_svg(
+            series, kind=_kind(kind),  # type: ignore[arg-type]
+            title=f"Blade {name}: rotational augmentation, before and after",
+            colour_index=colours,
+        )
+        return svg_response(body, download_name(name, "augmentation", kind))
+
+    @router.get("/plots/blades/{name}/augmentation-{kind}.csv")
+    def blade_augmentation_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        series, _ = blade_data(request, session, name).augmentation_series(_span(request))
+        return csv_response(plots.series_csv(series), download_name(name, "augmentation", kind))
+
+    @router.get("/plots/blades/{name}/dynamic-stall.csv")
+    def blade_dynamic_stall_csv(
+        request: Request, name: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        """The dynamic-stall arrays of the blade set (long layout by station radius), with
+        each station's zero-lift angle, lift slope and stall onset as comments."""
+        view = blade_data(request, session, name)
+        if view.tables is None:
+            raise PageError(404, f"blade {name!r} has no station tables: {view.problems}")
+        columns = {key: view.tables.columns[key] for key in recipes.DYNAMIC_STALL_COLUMNS
+                   if key in view.tables.columns}
+        if not columns:
+            raise PageError(404, f"the station tables of blade {name!r} hold no dynamic-stall "
+                                 "inputs")
+        comments: dict[str, object] = {
+            "blade": view.name,
+            "table": view.tables.content_hash,
+            **recipes.dynamic_stall_comments(view.tables.reports.get("stations")),
+        }
+        body = table_to_csv(
+            view.tables.alpha_deg, columns, header_comments=comments,
+            stations=[float(r) for r in view.radius_m], station_column="radius_m",
+        ).encode("utf-8")
+        return csv_response(body, download_name(name, "dynamic-stall"))
 
     @router.get("/plots/blades/{name}/stations-{kind}.csv")
     def blade_stations_csv(

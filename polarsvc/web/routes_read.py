@@ -262,6 +262,17 @@ def add_routes(router: APIRouter) -> None:
                 ]
                 if view.tables is not None
                 else [],
+                "augmentation_plots": [
+                    {
+                        "title": f"Before and after augmentation, {PLOT_TITLES[kind]}",
+                        "svg": f"{base}/augmentation-{kind}.svg?{query}&span={span}",
+                        "csv": f"{base}/augmentation-{kind}.csv?{query}&span={span}",
+                    }
+                    for kind, span in (("cl", "near"), ("cd", "near"), ("cl", "full"))
+                ]
+                if view.augmented_stations()
+                else [],
+                "dynamic_stall_csv": f"{base}/dynamic-stall.csv?{query}",
                 "url_name": url_name,
             },
         )
