@@ -170,7 +170,7 @@ def test_the_blade_page_shows_rotor_performance_and_a_comparison(live_server, de
             assert "screening check" in page.locator("p[role=note]").inner_text()
             rotor = page.locator("img[src*='/rotor-']")
             assert rotor.count() == 3
-            _scroll_through(page, rotor)
+            _scroll_through(page, page.locator("img"))
             assert _images_loaded(page) == []
             # spanwise loads at another wind speed, compared without augmentation
             page.select_option("select[name=loads_at]", "15.0")
