@@ -7,7 +7,7 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Depends, Query, Request
 
 from polarsvc import pipeline, recipes
-from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
@@ -18,7 +18,8 @@ from polarsvc.api.routers.polars import (
     approved_only_setting,
 )
 from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
-from polarsvc.api.served import served_response
+from polarsvc.api.served import PACKAGE_FORMAT, package_response, served_response
+from polarsvc.api.visibility import shown_name
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
@@ -26,8 +27,10 @@ from polarsvc.store.models import BladeDefinition
 router = APIRouter(tags=["blades and blends"], responses=ERROR_RESPONSES)
 
 
-def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> dict[str, Any]:
-    """The public form of a blade revision."""
+def blade_summary(
+    blade: BladeDefinition, principal: Principal, *, with_definition: bool = False
+) -> dict[str, Any]:
+    """The public form of a blade revision (``created_by`` for admins only)."""
     definition = blade_store.blade_definition(blade)
     summary = {
         "name": blade.name,
@@ -36,7 +39,7 @@ def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> d
         "rotor_radius_m": definition.get("rotor_radius_m"),
         "stations": len(definition.get("stations", [])),
         "created_at": blade.created_at.isoformat(),
-        "created_by": blade.created_by,
+        "created_by": shown_name(principal, blade.created_by),
     }
     if with_definition:
         summary["definition"] = definition
@@ -44,8 +47,8 @@ def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> d
 
 
 @router.get("/blades", summary="List blade definitions (every revision)")
-def list_blades(session: ReadSession, _: Reader):
-    return json_response([blade_summary(b) for b in blade_store.list_blades(session)])
+def list_blades(session: ReadSession, principal: Reader):
+    return json_response([blade_summary(b, principal) for b in blade_store.list_blades(session)])
 
 
 @router.post(
@@ -59,13 +62,15 @@ def add_blade(blade: BladeIn, request: Request, principal: Curator):
             session, name=blade.name, definition=definition, actor=principal.actor()
         )
         return json_response(
-            {**blade_summary(row), "created": created}, status_code=201 if created else 200
+            {**blade_summary(row, principal), "created": created},
+            status_code=201 if created else 200,
         )
 
 
 @router.get("/blades/{key}", summary="A blade definition: latest revision by name, or by hash")
-def get_blade(key: str, session: ReadSession, _: Reader):
-    return json_response(blade_summary(pipeline.find_blade(session, key), with_definition=True))
+def get_blade(key: str, session: ReadSession, principal: Reader):
+    blade = pipeline.find_blade(session, key)
+    return json_response(blade_summary(blade, principal, with_definition=True))
 
 
 def blade_set_query(
@@ -110,7 +115,10 @@ BladeSetQuery = Annotated[dict[str, Any], Depends(blade_set_query)]
         "(Kirchhoff separation function) and cl_fs (fully separated lift), have one row per "
         "station; per-station alpha0, lift slope and stall onset are in "
         "reports.stations[i].dynamic_stall. The CSV form is long (station radius, alpha_deg, "
-        "coefficients)."
+        "coefficients). Every form states the operating point and, per station, radius, "
+        "chord, twist, t/c and Reynolds number (`describes`; CSV comment lines). "
+        "`format=zip` answers with the station package: one CSV per station plus "
+        "manifest.json (layout in the README)."
     ),
 )
 def blade_tables(
@@ -118,11 +126,13 @@ def blade_tables(
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
-    fmt = choose_format(request, format)
+    fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
     served = pipeline.blade_set(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
     )
+    if fmt == PACKAGE_FORMAT:
+        return package_response(request, served)
     return served_response(request, served, fmt)
 
 
