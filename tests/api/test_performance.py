@@ -34,6 +34,11 @@ def test_performance_is_a_derived_object_on_the_blade_set(demo_client, tokens):
     assert "screening check" in result["rotor_caution"]
     assert "IEC 61400-1" in result["caution"]
     assert result["reports"]["assumptions"]
+    # self-describing: the machine, the model switches and the winds
+    described = result["describes"]
+    assert described["turbine"]["rated_power_w"] == 3.0e6
+    assert described["model"]["tip_loss"] is True
+    assert described["wind_distributions"][0] == "IEC class I: Rayleigh, mean 10 m/s"
     # the recipe names the blade-set recipe it used: the one the tables endpoint serves
     tables = demo_client.get("/api/v1/blades/skerry-48/tables",
                              headers=tokens.header("reader")).json()
@@ -114,6 +119,7 @@ def test_formats_etag_and_cache(demo_client, tokens):
     rows = [line for line in stations.splitlines() if not line.startswith("#")]
     assert len(rows) - 1 == len(first.json()["wind_speed_m_s"]) * 20
     assert "# part: stations" in stations
+    assert "# turbine_rated_power_w: 3000000.0" in stations
     # CSV parts have their own ETags
     assert (get_performance(demo_client, tokens, format="csv", part="cp").headers["etag"]
             != get_performance(demo_client, tokens, format="csv").headers["etag"])
