@@ -247,6 +247,17 @@ class PolarClient:
         _raise_for(response)
         return response.json()
 
+    def _get_all(self, path: str, **params: Any) -> list[Any]:
+        """Every item of a paginated listing, following the ``Link: rel="next"`` headers."""
+        response = self._http.get(path, params=_clean(params))
+        _raise_for(response)
+        items = list(response.json())
+        while "next" in response.links:
+            response = self._http.get(response.links["next"]["url"])
+            _raise_for(response)
+            items.extend(response.json())
+        return items
+
     def _get_table(self, path: str, **params: Any) -> DerivedTable:
         # Arrow IPC when pyarrow is installed here (the server falls back to .npz when it
         # lacks pyarrow), else .npz
@@ -260,16 +271,17 @@ class PolarClient:
 
     # -- catalogue -------------------------------------------------------------------------
     def families(self) -> list[dict[str, Any]]:
-        """All families with their airfoils."""
-        return self._get_json("/families")
+        """All families with their airfoils (every page)."""
+        return self._get_all("/families")
 
     def airfoils(self, *, family: str | None = None, search: str | None = None) -> list[dict]:
-        """Airfoils, optionally of one family or matching a search text."""
-        return self._get_json("/airfoils", family=family, search=search)
+        """Airfoils, optionally of one family or matching a search text (every page)."""
+        return self._get_all("/airfoils", family=family, search=search)
 
     def polars(self, **filters: Any) -> list[dict[str, Any]]:
-        """Revision summaries; filters: airfoil, family, surface, reynolds, review_state."""
-        return self._get_json("/polars", **filters)
+        """Revision summaries (every page); filters: airfoil, family, surface, reynolds,
+        review_state, source_kind."""
+        return self._get_all("/polars", **filters)
 
     def polar(self, content_hash: str) -> Polar:
         """A stored revision's table as a :class:`Polar` (with its conditions)."""

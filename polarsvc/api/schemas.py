@@ -9,9 +9,22 @@ from __future__ import annotations
 import datetime as dt
 from typing import Annotated, Literal
 
+from fastapi import Query
 from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, model_validator
 
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
+from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
+
+LimitQuery = Annotated[
+    int,
+    Query(ge=1, le=MAX_PAGE_SIZE, description="items per page (keyset pagination; the "
+          "Link header names the next page, X-Total-Count the matching items)"),
+]
+AfterQuery = Annotated[
+    str | None,
+    Query(max_length=1000, description="cursor of the next page, as given in the Link header"),
+]
+PAGE_SIZE = DEFAULT_PAGE_SIZE
 
 Number = StrictFloat | StrictInt
 PositiveNumber = Annotated[Number, Field(gt=0, allow_inf_nan=False)]

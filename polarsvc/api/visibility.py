@@ -82,8 +82,10 @@ def audit_trail(
     object_key: str | None = None,
     actor: str | None = None,
     limit: int = audit_store.DEFAULT_QUERY_LIMIT,
+    after_id: int | None = None,
 ) -> list[dict[str, Any]]:
-    """The audit events ``principal`` may see, oldest first, each as :func:`event_summary`.
+    """The audit events ``principal`` may see, oldest first, each as :func:`event_summary`
+    (after the event ``after_id`` when given: keyset pages).
 
     Raises
     ------
@@ -95,6 +97,6 @@ def audit_trail(
         raise ActorFilterRefused(principal.role)
     events = audit_store.query_events(
         session, since=since, until=until, object_key=object_key, actor=actor, limit=limit,
-        exclude_object_kinds=() if identities else TOKEN_OBJECT_KINDS,
+        exclude_object_kinds=() if identities else TOKEN_OBJECT_KINDS, after_id=after_id,
     )
     return [event_summary(event, identities=identities) for event in events]

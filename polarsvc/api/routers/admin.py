@@ -9,11 +9,12 @@ from fastapi import APIRouter, HTTPException, Query, Request
 
 from polarsvc.api import visibility
 from polarsvc.api.deps import Admin, Reader, ReadSession
-from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES, TokenIn
+from polarsvc.api.responses import json_response, page_response
+from polarsvc.api.schemas import ERROR_RESPONSES, AfterQuery, TokenIn
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken
+from polarsvc.store.paging import decode_cursor, encode_cursor
 
 router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
 
@@ -62,6 +63,7 @@ def revoke_token(name: str, request: Request, principal: Admin):
     "client addresses are shown to admins only",
 )
 def audit_trail(
+    request: Request,
     session: ReadSession,
     principal: Reader,
     since: dt.datetime | None = None,
@@ -69,17 +71,22 @@ def audit_trail(
     object: Annotated[str | None, Query(max_length=200)] = None,
     actor: Annotated[str | None, Query(max_length=200, description="token name (admins)")] = None,
     limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
+    after: AfterQuery = None,
 ):
     """Each event names its actor's role; the actor's token name and the client address are
-    shown to admins only (None for others), and token-management events to admins only."""
+    shown to admins only (None for others), and token-management events to admins only.
+    At most ``limit`` events per page; follow the ``Link: <...>; rel="next"`` header
+    (present while a page is full) for the following events."""
     for name, value in (("since", since), ("until", until)):
         if value is not None and value.tzinfo is None:
             raise HTTPException(422, detail=f"{name} must carry a time zone (e.g. ...Z)")
+    after_id = decode_cursor(after, (int,))[0] if after is not None else None
     try:
         events = visibility.audit_trail(
             session, principal, since=since, until=until, object_key=object, actor=actor,
-            limit=limit,
+            limit=limit, after_id=after_id,
         )
     except visibility.ActorFilterRefused as exc:
         raise HTTPException(403, detail=str(exc)) from None
-    return json_response(events)
+    cursor = encode_cursor([events[-1]["id"]]) if len(events) == limit else None
+    return page_response(request, events, next_cursor=cursor, total=None)

@@ -8,7 +8,7 @@ from fastapi import APIRouter, Depends, Query, Request
 
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
-from polarsvc.api.responses import choose_format, json_response
+from polarsvc.api.responses import choose_format, json_response, page_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
     ExtensionQuery,
@@ -17,7 +17,14 @@ from polarsvc.api.routers.polars import (
     GridStep,
     approved_only_setting,
 )
-from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, BladeIn
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    IDENTICAL_EXISTS,
+    PAGE_SIZE,
+    AfterQuery,
+    BladeIn,
+    LimitQuery,
+)
 from polarsvc.api.served import PACKAGE_FORMAT, package_response, served_response
 from polarsvc.api.visibility import shown_name
 from polarsvc.store import blades as blade_store
@@ -46,9 +53,18 @@ def blade_summary(
     return summary
 
 
-@router.get("/blades", summary="List blade definitions (every revision)")
-def list_blades(session: ReadSession, principal: Reader):
-    return json_response([blade_summary(b, principal) for b in blade_store.list_blades(session)])
+@router.get("/blades", summary="List blade definitions (every revision; one page)")
+def list_blades(
+    request: Request, session: ReadSession, principal: Reader,
+    limit: LimitQuery = PAGE_SIZE, after: AfterQuery = None,
+):
+    """Blade revisions by name, then storage order. Follow the ``Link`` header for the next
+    page."""
+    page = blade_store.page_blades(session, after=after, limit=limit)
+    return page_response(
+        request, [blade_summary(b, principal) for b in page.items],
+        next_cursor=page.next_cursor, total=page.total,
+    )
 
 
 @router.post(

@@ -9,8 +9,14 @@ from starlette.concurrency import run_in_threadpool
 
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
-from polarsvc.api.responses import choose_format, json_response, table_response
-from polarsvc.api.schemas import ERROR_RESPONSES, ReviewChange
+from polarsvc.api.responses import choose_format, json_response, page_response, table_response
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    PAGE_SIZE,
+    AfterQuery,
+    LimitQuery,
+    ReviewChange,
+)
 from polarsvc.api.served import served_response
 from polarsvc.api.settings import Settings
 from polarsvc.api.visibility import shown_name
@@ -38,8 +44,12 @@ ApprovedOnlyQuery = Annotated[
 ]
 
 
-def revision_summary(revision: PolarRevision, principal: Principal) -> dict[str, Any]:
-    """The public form of a revision without its table (``created_by`` for admins only)."""
+def revision_summary(
+    revision: PolarRevision | polar_store.RevisionSummary, principal: Principal
+) -> dict[str, Any]:
+    """The public form of a revision without its table (from the ORM row, or from a
+    listing's :class:`~polarsvc.store.polars.RevisionSummary`; ``created_by`` for admins
+    only)."""
     return {
         "content_hash": revision.content_hash,
         "airfoil": revision.airfoil.name,
@@ -72,8 +82,9 @@ def approved_only_setting(settings: Settings, explicit: bool | None) -> bool:
     return settings.approved_only if explicit is None else explicit
 
 
-@router.get("/polars", summary="List revisions")
+@router.get("/polars", summary="List revisions (one page; filters in the query)")
 def list_polars(
+    request: Request,
     session: ReadSession,
     principal: Reader,
     airfoil: Annotated[str | None, Query(max_length=200)] = None,
@@ -81,12 +92,21 @@ def list_polars(
     surface: Annotated[str | None, Query(max_length=32)] = None,
     reynolds: Annotated[float | None, Query(gt=0)] = None,
     review_state: Annotated[str | None, Query(max_length=16)] = None,
+    source_kind: Annotated[str | None, Query(max_length=32)] = None,
+    limit: LimitQuery = PAGE_SIZE,
+    after: AfterQuery = None,
 ):
-    rows = polar_store.list_revisions(
+    """Revision summaries (no tables) by airfoil name, then storage order. One page per
+    request: follow the ``Link: <...>; rel="next"`` header; ``X-Total-Count`` gives the
+    number of matching revisions."""
+    page = polar_store.page_revisions(
         session, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
-        review_state=review_state,
+        review_state=review_state, source_kind=source_kind, after=after, limit=limit,
     )
-    return json_response([revision_summary(r, principal) for r in rows])
+    return page_response(
+        request, [revision_summary(r, principal) for r in page.items],
+        next_cursor=page.next_cursor, total=page.total,
+    )
 
 
 @router.post(
