@@ -2,8 +2,8 @@
 error-level flag through), airfoils retired from family blends, and former airfoil names
 kept as aliases after a rename.
 
-Revision ID: 0003
-Revises: 0002
+Revision ID: 0004
+Revises: 0003
 Create Date: 2026-12-02
 
 Existing revisions get no stored flags (NULL): they are computed from the stored table when
@@ -17,8 +17,8 @@ from collections.abc import Sequence
 import sqlalchemy as sa
 from alembic import op
 
-revision: str = "0003"
-down_revision: str | None = "0002"
+revision: str = "0004"
+down_revision: str | None = "0003"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
