@@ -263,3 +263,69 @@ def test_property_correction_bounded(model, c_r, r_R, tsr, twist) -> None:
         assert np.all((change <= 1e-15) & (change >= -excess - 1e-15))
     else:
         assert np.all((change >= -1e-15) & (change <= excess + 1e-15))
+
+
+@pytest.mark.parametrize(
+    ("call", "parameter", "message"),
+    [
+        (lambda: snel_factor(-1.0), "chord_over_r", "must lie in (0, inf), got -1"),
+        (lambda: du_selig_factors(0.1, 1.5, 7.0), "r_over_R", "must lie in (0, 1], got 1.5"),
+        (lambda: du_selig_factors(0.1, 0.3, 0.0), "tip_speed_ratio", "got 0"),
+        (lambda: du_selig_factors(-0.1, 0.3, 7.0), "chord_over_r", "got -0.1"),
+        (lambda: augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3,
+                                  chord_over_r=0.1),
+         "tip_speed_ratio", "is required by the du-selig model"),
+        (lambda: chaviaropoulos_hansen_factor(0.2, math.nan), "twist_deg", "must be finite"),
+        (lambda: chaviaropoulos_hansen_factor(-0.2, 0.0), "chord_over_r", "got -0.2"),
+        (lambda: fade_weight([0.0], math.nan, 20.0), "fade_start_deg", "must be finite"),
+        (lambda: fade_weight([0.0], 20.0, 10.0), "fade_end_deg",
+         "must lie in (fade_start_deg, 90] deg, got 10"),
+        (lambda: fade_weight([0.0], 20.0, 95.0), "fade_end_deg", "got 95"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_end_deg=95.0),
+         "fade_end_deg", "must lie within 90 deg, got 95"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_start_deg=40.0, fade_end_deg=30.0),
+         "fade_end_deg", "must end after it starts and by 90 deg; got start 40 and end 30"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_start_offset_deg=math.inf),
+         "fade_start_offset_deg", "must be finite"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_end_offset_deg=math.nan),
+         "fade_end_offset_deg", "must be finite"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  cl_alpha_per_rad=-1.0),
+         "cl_alpha_per_rad", "must be a positive number, got -1"),
+    ],
+)
+def test_errors_name_the_parameter_and_the_rule(call, parameter: str, message: str) -> None:
+    with pytest.raises(ParameterError) as info:
+        call()
+    assert info.value.parameter == parameter
+    assert message in str(info.value)
+
+
+def test_unknown_model_names_the_valid_ones() -> None:
+    with pytest.raises(UnknownMethodError) as info:
+        augment_rotation(piecewise_polar(), "guess", r_over_R=0.3, chord_over_r=0.1)
+    assert all(name in str(info.value) for name in
+               ("snel", "du-selig", "chaviaropoulos-hansen"))
+
+
+def test_drag_factors_as_applied_and_reported() -> None:
+    # Du-Selig at c/r 0.1, r/R 0.3, tsr 7: f_cd = 0.0336698 (worked above), applied with a
+    # minus sign (drag reduced); Chaviaropoulos-Hansen the same factor for lift and drag
+    ds = augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3, chord_over_r=0.1,
+                          tip_speed_ratio=7.0).history[-1]
+    assert ds["drag_factor"] == pytest.approx(-0.0336698, abs=2e-7)
+    assert ds["lift_factor"] == pytest.approx(0.0416575, abs=2e-7)
+    ch = augment_rotation(piecewise_polar(), "chaviaropoulos-hansen", r_over_R=0.3,
+                          chord_over_r=0.2, twist_deg=10.0).history[-1]
+    assert ch["drag_factor"] == ch["lift_factor"] == pytest.approx(0.4138648, abs=2e-7)
+    # a raw factor below zero is clipped to 0 and reported (Du-Selig at c/r 0.01: the
+    # bracket 1.2628 * 0.01 * ... - 1 is negative, so f_cl < 0)
+    small = augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.9, chord_over_r=0.01,
+                             tip_speed_ratio=7.0).history[-1]
+    assert small["lift_factor"] == 0.0
+    assert {c["factor"] for c in small["clipped_factors"]} == {"lift_factor", "drag_factor"}
+    assert all(c["raw"] < 0.0 and c["applied"] == 0.0 for c in small["clipped_factors"])
