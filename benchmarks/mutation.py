@@ -12,7 +12,9 @@ then the script prints, per module and overall, the mutants killed (a test faile
 (counted as detected), survived (no test failed) and not checked (budget spent), with the
 score ``detected / (detected + survived)``. ``mutmut results`` and ``mutmut show <name>``
 inspect the survivors afterwards. ``--resume`` keeps the results of an earlier run
-(``mutants/``); by default the run starts afresh.
+(``mutants/``); by default the run starts afresh. ``--retest-survivors`` (implies
+``--resume``) runs only the surviving mutants of the given modules again, against the current
+tests (after tests were added to kill them).
 """
 
 from __future__ import annotations
@@ -57,19 +59,27 @@ def run_bounded(command: list[str], seconds: float) -> None:
             process.wait()
 
 
-def states() -> dict[str, Counter]:
-    """Mutant states per aero module, from ``mutmut results --all true``."""
+def results() -> list[tuple[str, str, str]]:
+    """(module, mutant name, state) of every aero mutant, from ``mutmut results --all true``."""
     answer = subprocess.run(
         [*mutmut(), "results", "--all", "true"], cwd=ROOT, capture_output=True, text=True,
         check=True,
     )
-    counts: dict[str, Counter] = {}
+    rows = []
     for line in answer.stdout.splitlines():
         name, _, state = line.strip().rpartition(": ")
         parts = name.split(".")
         if len(parts) < 4 or parts[:2] != ["polarsvc", "aero"]:
             continue
-        counts.setdefault(parts[2], Counter())[state.strip()] += 1
+        rows.append((parts[2], name, state.strip()))
+    return rows
+
+
+def states() -> dict[str, Counter]:
+    """Mutant states per aero module."""
+    counts: dict[str, Counter] = {}
+    for module, _, state in results():
+        counts.setdefault(module, Counter())[state] += 1
     return counts
 
 
@@ -81,14 +91,23 @@ def main() -> None:
                         help="wall-clock budget of all runs together [min]")
     parser.add_argument("--children", type=int, default=2, help="parallel mutant runs")
     parser.add_argument("--resume", action="store_true", help="keep earlier results")
+    parser.add_argument("--retest-survivors", action="store_true",
+                        help="run only the survivors of the modules again (keeps results)")
     args = parser.parse_args()
-    if not args.resume:
+    if not (args.resume or args.retest_survivors):
         shutil.rmtree(ROOT / "mutants", ignore_errors=True)
     load = Path("/proc/loadavg").read_text().split()[:3] if Path("/proc/loadavg").exists() else []
     print(f"load average at start: {' '.join(load)}")
     deadline = time.monotonic() + 60.0 * args.budget_min
     spent: dict[str, float] = {}
-    for module in args.modules:
+    if args.retest_survivors:
+        names = [name for module, name, state in results()
+                 if module in args.modules and state == "survived"]
+        print(f"retesting {len(names)} survivors")
+        if names:
+            run_bounded([*mutmut(), "run", "--max-children", str(args.children), *names],
+                        max(deadline - time.monotonic(), 0.0))
+    for module in [] if args.retest_survivors else args.modules:
         left = deadline - time.monotonic()
         if left <= 0:
             break
