@@ -7,15 +7,24 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, defer, selectinload
 
 from polarsvc.hashing import canonical_json
-from polarsvc.store._lookup import check_name, escape_like
+from polarsvc.store._lookup import check_name, check_text, escape_like
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue, NotFound
-from polarsvc.store.models import NAME_LENGTH, Airfoil, Family
+from polarsvc.store.models import Airfoil, Family
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    keyset_after,
+    take_page,
+)
 
 
 def get_family(session: Session, name: str) -> Family:
@@ -44,7 +53,8 @@ def get_or_create_family(
     (Family, bool)
         The row and whether it was created. An existing family is returned unchanged.
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
+    check_text("description", description)
     existing = session.scalars(select(Family).where(Family.name == name)).one_or_none()
     if existing is not None:
         return existing, False
@@ -105,7 +115,7 @@ def create_airfoil(
     Parameters
     ----------
     name : str
-        Unique airfoil name, kept literally.
+        Unique airfoil name (:mod:`polarsvc.names`).
     thickness : float
         Relative thickness t/c as a fraction, 0 < t/c <= 1.
     family : str, optional
@@ -127,7 +137,10 @@ def create_airfoil(
     NotFound
         If ``family`` does not exist.
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
+    check_text("description", description)
+    if family is not None:
+        check_name("family", family)
     thickness = float(thickness)
     if not (math.isfinite(thickness) and 0.0 < thickness <= 1.0):
         raise InvalidValue("thickness", f"must lie in (0, 1] as a fraction, got {thickness!r}")
@@ -183,3 +196,88 @@ def list_airfoils(
         pattern = f"%{escape_like(search.lower())}%"
         statement = statement.where(Airfoil.name.ilike(pattern, escape="\\"))
     return session.scalars(statement.order_by(Airfoil.thickness, Airfoil.name)).all()
+
+
+def family_members(
+    session: Session, family_ids: Sequence[int]
+) -> dict[int, list[tuple[str, float]]]:
+    """The (name, thickness) of each given family's airfoils, by thickness then name: one
+    query answered from ``ix_airfoil_family_order``."""
+    if not family_ids:
+        return {}
+    statement = (
+        select(Airfoil.family_id, Airfoil.name, Airfoil.thickness)
+        .where(Airfoil.family_id.in_(list(family_ids)))
+        .order_by(Airfoil.family_id, Airfoil.thickness, Airfoil.name)
+    )
+    members: dict[int, list[tuple[str, float]]] = {i: [] for i in family_ids}
+    for family_id, name, thickness in session.execute(statement):
+        members[family_id].append((name, thickness))
+    return members
+
+
+def page_families(
+    session: Session, *, after: str | None = None, limit: int = DEFAULT_PAGE_SIZE
+) -> Page[Family]:
+    """One page of families by name (their airfoils: :func:`family_members`). The total is
+    counted."""
+    limit = check_limit(limit)
+    statement = select(Family)
+    if after is not None:
+        (name,) = decode_cursor(after, (str,))
+        statement = statement.where(Family.name > name)
+    rows = session.scalars(statement.order_by(Family.name).limit(limit + 1)).all()
+    total = count_rows(session, select(func.count(Family.id)), ("families",))
+    return take_page(rows, limit, lambda f: (f.name,), total)
+
+
+def family_member_counts(session: Session) -> dict[int, int]:
+    """The number of airfoils of each family, by family id (one grouped, index-only query)."""
+    statement = (
+        select(Airfoil.family_id, func.count(Airfoil.id))
+        .where(Airfoil.family_id.is_not(None))
+        .group_by(Airfoil.family_id)
+    )
+    return {family_id: count for family_id, count in session.execute(statement).all()}
+
+
+def page_airfoils(
+    session: Session,
+    *,
+    family: str | None = None,
+    search: str | None = None,
+    after: str | None = None,
+    limit: int = DEFAULT_PAGE_SIZE,
+    extra_filter: Any = None,
+    extra_key: tuple[Any, ...] = (),
+) -> Page[tuple[Airfoil, bool]]:
+    """One page of airfoils by thickness then name, optionally of one family and/or whose
+    name contains ``search`` (as :func:`list_airfoils`); each item is the airfoil (family
+    loaded, outline not read) and whether it has an outline. ``extra_filter`` is a further
+    SQL condition on :class:`Airfoil` (e.g. an EXISTS over its revisions), ``extra_key``
+    the values that make it (they name the kept count). The total is counted."""
+    limit = check_limit(limit)
+    conditions = []
+    if family is not None:
+        family_id = select(Family.id).where(Family.name == family).scalar_subquery()
+        conditions.append(Airfoil.family_id == family_id)
+    if search:
+        pattern = f"%{escape_like(search.lower())}%"
+        conditions.append(Airfoil.name.ilike(pattern, escape="\\"))
+    if extra_filter is not None:
+        conditions.append(extra_filter)
+    statement = select(Airfoil, Airfoil.coordinates.is_not(None)).options(
+        defer(Airfoil.coordinates), selectinload(Airfoil.family).load_only(Family.name)
+    ).where(*conditions)
+    if after is not None:
+        thickness, name = decode_cursor(after, (float, str))
+        statement = statement.where(
+            keyset_after((Airfoil.thickness, Airfoil.name), (thickness, name))
+        )
+    statement = statement.order_by(Airfoil.thickness, Airfoil.name).limit(limit + 1)
+    rows = [(airfoil, bool(has)) for airfoil, has in session.execute(statement).all()]
+    total = count_rows(
+        session, select(func.count(Airfoil.id)).where(*conditions),
+        ("airfoils", family, search, *extra_key),
+    )
+    return take_page(rows, limit, lambda item: (item[0].thickness, item[0].name), total)

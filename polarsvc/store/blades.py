@@ -6,14 +6,23 @@ import json
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from polarsvc.hashing import blade_content_hash, canonical_json
 from polarsvc.store._lookup import check_name, find_by_hash, insert_or_winner
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import InvalidValue, NotFound
-from polarsvc.store.models import NAME_LENGTH, BladeDefinition
+from polarsvc.store.models import BladeDefinition
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    keyset_after,
+    take_page,
+)
 
 
 def store_blade(
@@ -39,7 +48,7 @@ def store_blade(
     InvalidValue
         If the definition cannot be written as canonical JSON (NaN, unsupported types).
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
     try:
         text = canonical_json(dict(definition)).decode("utf-8")
         content_hash = blade_content_hash(name=name, definition=definition)
@@ -107,3 +116,28 @@ def list_blades(session: Session, *, name: str | None = None) -> Sequence[BladeD
     if name is not None:
         statement = statement.where(BladeDefinition.name == name)
     return session.scalars(statement.order_by(BladeDefinition.name, BladeDefinition.id)).all()
+
+
+def page_blades(
+    session: Session, *, after: str | None = None, limit: int = DEFAULT_PAGE_SIZE
+) -> Page[BladeDefinition]:
+    """One page of blade revisions by name then storage order; the total is counted."""
+    limit = check_limit(limit)
+    statement = select(BladeDefinition)
+    if after is not None:
+        name, blade_id = decode_cursor(after, (str, int))
+        statement = statement.where(
+            keyset_after((BladeDefinition.name, BladeDefinition.id), (name, blade_id))
+        )
+    statement = statement.order_by(BladeDefinition.name, BladeDefinition.id).limit(limit + 1)
+    rows = session.scalars(statement).all()
+    total = count_rows(session, select(func.count(BladeDefinition.id)), ("blades",))
+    return take_page(rows, limit, lambda b: (b.name, b.id), total)
+
+
+def blade_names(session: Session, *, limit: int = 1000) -> list[str]:
+    """Distinct blade names in order (at most ``limit``), without reading definitions."""
+    statement = (
+        select(BladeDefinition.name).distinct().order_by(BladeDefinition.name).limit(limit)
+    )
+    return list(session.scalars(statement).all())

@@ -107,6 +107,8 @@ class Airfoil(Base):
     __tablename__ = "airfoil"
     __table_args__ = (
         CheckConstraint("thickness > 0 AND thickness <= 1", name="thickness_fraction"),
+        Index("ix_airfoil_thickness_name", "thickness", "name"),
+        Index("ix_airfoil_family_order", "family_id", "thickness", "name"),
     )
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
@@ -129,6 +131,11 @@ class PolarRevision(Base):
         CheckConstraint(_in("review_state", REVIEW_STATES), name="review_state"),
         CheckConstraint("n_rows >= 2", name="n_rows"),
         Index("ix_polar_revision_lookup", "airfoil_id", "reynolds", "surface"),
+        # listings: an airfoil's revisions in keyset order, with every filtered column
+        Index(
+            "ix_polar_revision_listing",
+            "airfoil_id", "id", "surface", "review_state", "source_kind", "reynolds",
+        ),
     )
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import select
-from sqlalchemy.orm import Session
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session, aliased, contains_eager, defer, selectinload
 
 from polarsvc.aero.polar import Polar
 from polarsvc.hashing import (
@@ -16,7 +17,7 @@ from polarsvc.hashing import (
     decode_array_bytes,
     polar_content_hash,
 )
-from polarsvc.store._lookup import check_choice, find_by_hash, insert_or_winner
+from polarsvc.store._lookup import check_choice, check_text, find_by_hash, insert_or_winner
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import (
@@ -26,6 +27,15 @@ from polarsvc.store.errors import (
     NotFound,
 )
 from polarsvc.store.models import REVIEW_STATES, SOURCE_KINDS, Airfoil, Family, PolarRevision
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    keyset_after,
+)
+from polarsvc.store.paging import take_page as _take_page
 
 REVIEW_TRANSITIONS: dict[str, tuple[str, ...]] = {
     "draft": ("approved", "deprecated"),
@@ -42,7 +52,8 @@ def normalise_provenance(provenance: Mapping[str, Any]) -> dict[str, Any]:
 
     ``source_kind`` is required and one of :data:`~polarsvc.store.models.SOURCE_KINDS`;
     ``measured_on`` may be a :class:`datetime.date` or an ISO ``YYYY-MM-DD`` string (it is
-    returned as a date); the other fields are strings or None, kept literally.
+    returned as a date); the other fields are strings or None, kept literally (no control
+    characters other than tab and line ends: :func:`polarsvc.names.check_text`).
 
     Raises
     ------
@@ -68,12 +79,11 @@ def normalise_provenance(provenance: Mapping[str, Any]) -> dict[str, Any]:
         raise InvalidValue("measured_on", f"must be a date, got {type(measured_on).__name__}")
     result["measured_on"] = measured_on
     for name in ("reference", "facility", "contributor", "notes"):
-        if result[name] is not None and not isinstance(result[name], str):
-            raise InvalidValue(name, f"must be a string, got {type(result[name]).__name__}")
+        check_text(name, result[name])
     return result
 
 
-def revision_provenance(revision: PolarRevision) -> dict[str, Any]:
+def revision_provenance(revision: PolarRevision | RevisionSummary) -> dict[str, Any]:
     """The provenance fields of a stored revision."""
     return {name: getattr(revision, name) for name in PROVENANCE_FIELDS}
 
@@ -259,6 +269,50 @@ def get_revision(session: Session, key: str) -> PolarRevision:
     return find_by_hash(session, PolarRevision, "polar revision", key)
 
 
+TABLE_COLUMNS = ("alpha_deg", "cl", "cd", "cm")
+"""The array columns of a revision; summaries never read them."""
+
+
+def _summary_options(airfoil_loader: Any) -> tuple[Any, ...]:
+    """Loader options of a revision summary: no table columns; the airfoil (through
+    ``airfoil_loader``) and its family, and the hashes of the superseded and replacing
+    revisions, loaded in bulk rather than row by row."""
+    return (
+        *(defer(getattr(PolarRevision, name)) for name in TABLE_COLUMNS),
+        airfoil_loader.selectinload(Airfoil.family),
+        selectinload(PolarRevision.supersedes).load_only(PolarRevision.content_hash),
+        selectinload(PolarRevision.replaced_by).load_only(PolarRevision.content_hash),
+    )
+
+
+def _revision_filters(
+    statement: Any,
+    *,
+    airfoil: str | None,
+    family: str | None,
+    reynolds: float | None,
+    surface: str | None,
+    review_state: str | None,
+    source_kind: str | None = None,
+) -> Any:
+    if airfoil is not None:
+        statement = statement.where(Airfoil.name == airfoil)
+    if family is not None:
+        family_id = select(Family.id).where(Family.name == family).scalar_subquery()
+        statement = statement.where(Airfoil.family_id == family_id)
+    if reynolds is not None:
+        statement = statement.where(PolarRevision.reynolds == float(reynolds))
+    if surface is not None:
+        statement = statement.where(PolarRevision.surface == surface)
+    if review_state is not None:
+        check_choice("review_state", review_state, REVIEW_STATES)
+        statement = statement.where(PolarRevision.review_state == review_state)
+    if source_kind is not None:
+        check_choice("source_kind", source_kind, SOURCE_KINDS)
+        statement = statement.where(PolarRevision.source_kind == source_kind)
+    return statement
+
+
 def list_revisions(
     session: Session,
     *,
@@ -267,27 +321,211 @@ def list_revisions(
     reynolds: float | None = None,
     surface: str | None = None,
     review_state: str | None = None,
+    with_tables: bool = True,
 ) -> Sequence[PolarRevision]:
     """Revisions matching every filter given, by airfoil name, Reynolds number, surface,
-    then storage order. ``reynolds`` matches exactly."""
-    statement = select(PolarRevision).join(Airfoil)
-    if airfoil is not None:
-        statement = statement.where(Airfoil.name == airfoil)
-    if family is not None:
-        statement = statement.join(Family, Airfoil.family_id == Family.id).where(
-            Family.name == family
-        )
-    if reynolds is not None:
-        statement = statement.where(PolarRevision.reynolds == float(reynolds))
-    if surface is not None:
-        statement = statement.where(PolarRevision.surface == surface)
-    if review_state is not None:
-        check_choice("review_state", review_state, REVIEW_STATES)
-        statement = statement.where(PolarRevision.review_state == review_state)
+    then storage order. ``reynolds`` matches exactly. With ``with_tables=False`` the table
+    columns are not read (they load on first access) and the relations a summary shows are
+    loaded in bulk. For long listings use :func:`page_revisions`."""
+    statement = _revision_filters(
+        select(PolarRevision).join(Airfoil), airfoil=airfoil, family=family,
+        reynolds=reynolds, surface=surface, review_state=review_state,
+    )
+    if not with_tables:
+        statement = statement.options(*_summary_options(contains_eager(PolarRevision.airfoil)))
     statement = statement.order_by(
         Airfoil.name, PolarRevision.reynolds, PolarRevision.surface, PolarRevision.id
     )
     return session.scalars(statement).all()
+
+
+@dataclass(frozen=True)
+class NameRef:
+    """A related row seen by a summary: its name."""
+
+    name: str
+
+
+@dataclass(frozen=True)
+class HashRef:
+    """A related revision seen by a summary: its content hash."""
+
+    content_hash: str
+
+
+@dataclass(frozen=True)
+class AirfoilRef:
+    """The airfoil of a revision summary."""
+
+    name: str
+    thickness: float
+    family: NameRef | None
+
+
+@dataclass(frozen=True)
+class RevisionSummary:
+    """A revision as a listing shows it, read by one Core query (no ORM objects, no table
+    columns). Attribute names are those of :class:`PolarRevision`, so the same code turns
+    either into its public form."""
+
+    id: int
+    content_hash: str
+    airfoil: AirfoilRef
+    reynolds: float | None
+    mach: float
+    surface: str
+    n_rows: int
+    has_cm: bool
+    source_kind: str
+    reference: str | None
+    facility: str | None
+    measured_on: dt.date | None
+    contributor: str | None
+    notes: str | None
+    supersedes: HashRef | None
+    review_state: str
+    review_reason: str | None
+    replaced_by: HashRef | None
+    created_at: dt.datetime
+    created_by: str
+
+
+_SUMMARY_COLUMNS = (
+    "id", "content_hash", "reynolds", "mach", "surface", "n_rows", "has_cm", "source_kind",
+    "reference", "facility", "measured_on", "contributor", "notes", "review_state",
+    "review_reason", "created_at", "created_by",
+)
+
+
+_SUPERSEDES = aliased(PolarRevision, name="supersedes_revision")
+_REPLACED_BY = aliased(PolarRevision, name="replacing_revision")
+
+
+def _summary_select() -> Any:
+    # the aliases are made once: fresh ones would make a new statement (and a compilation
+    # of it) per request instead of one from SQLAlchemy's statement cache
+    supersedes, replaced_by = _SUPERSEDES, _REPLACED_BY
+    return (
+        select(
+            *(getattr(PolarRevision, name) for name in _SUMMARY_COLUMNS),
+            Airfoil.name, Airfoil.thickness, Family.name,
+            supersedes.content_hash, replaced_by.content_hash,
+        )
+        .join(Airfoil, Airfoil.id == PolarRevision.airfoil_id)
+        .outerjoin(Family, Family.id == Airfoil.family_id)
+        .outerjoin(supersedes, supersedes.id == PolarRevision.supersedes_id)
+        .outerjoin(replaced_by, replaced_by.id == PolarRevision.replaced_by_id)
+    )
+
+
+def _summary_of(row: Any) -> RevisionSummary:
+    values = dict(zip(_SUMMARY_COLUMNS, row[: len(_SUMMARY_COLUMNS)], strict=True))
+    airfoil_name, thickness, family_name, supersedes, replaced_by = row[len(_SUMMARY_COLUMNS):]
+    return RevisionSummary(
+        **values,
+        airfoil=AirfoilRef(airfoil_name, thickness, NameRef(family_name) if family_name else None),
+        supersedes=HashRef(supersedes) if supersedes else None,
+        replaced_by=HashRef(replaced_by) if replaced_by else None,
+    )
+
+
+def page_revisions(
+    session: Session,
+    *,
+    airfoil: str | None = None,
+    family: str | None = None,
+    reynolds: float | None = None,
+    surface: str | None = None,
+    review_state: str | None = None,
+    source_kind: str | None = None,
+    after: str | None = None,
+    limit: int = DEFAULT_PAGE_SIZE,
+    count: bool = True,
+) -> Page[RevisionSummary]:
+    """One page of revision summaries matching every filter given, by airfoil name, then
+    storage order (keyset pagination, :mod:`polarsvc.store.paging`).
+
+    One Core query reads the summary columns (never the tables) with the airfoil, family
+    and related hashes; ``after`` is the previous page's ``next_cursor``; ``count`` adds the
+    number of matching revisions (an index-only count, kept until the next write).
+
+    Raises
+    ------
+    InvalidValue
+        On a bad cursor, limit, review state or source kind.
+    """
+    limit = check_limit(limit)
+
+    def filtered(statement: Any) -> Any:
+        return _revision_filters(
+            statement, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
+            review_state=review_state, source_kind=source_kind,
+        )
+
+    # first the page's ids from the indexes alone (airfoil names, then the listing index
+    # per airfoil, in order), then their summary columns by primary key: the planner never
+    # gets the chance to scan the revisions table and sort it
+    keys = filtered(select(PolarRevision.id).join(Airfoil))
+    if after is not None:
+        name, revision_id = decode_cursor(after, (str, int))
+        keys = keys.where(keyset_after((Airfoil.name, PolarRevision.id), (name, revision_id)))
+    ids = session.scalars(keys.order_by(Airfoil.name, PolarRevision.id).limit(limit + 1)).all()
+    by_id = {
+        row[0]: _summary_of(row)
+        for row in session.execute(_summary_select().where(PolarRevision.id.in_(ids)))
+    }
+    rows = [by_id[i] for i in ids]
+    total = None
+    if count:
+        total = count_rows(
+            session, filtered(select(func.count(PolarRevision.id)).join(Airfoil)),
+            ("revisions", airfoil, family, reynolds, surface, review_state, source_kind),
+        )
+    return _take_page(rows, limit, lambda r: (r.airfoil.name, r.id), total)
+
+
+def revisions_matching(
+    *, surface: str | None = None, review_state: str | None = None,
+    source_kind: str | None = None,
+) -> Any:
+    """An SQL condition on :class:`Airfoil`: it has a revision with every property given
+    (an EXISTS answered from ``ix_polar_revision_listing``)."""
+    statement = select(PolarRevision.id).where(PolarRevision.airfoil_id == Airfoil.id)
+    statement = _revision_filters(
+        statement, airfoil=None, family=None, reynolds=None, surface=surface,
+        review_state=review_state, source_kind=source_kind,
+    )
+    return statement.exists()
+
+
+def revision_groups(
+    session: Session,
+    airfoil_ids: Sequence[int],
+    *,
+    surface: str | None = None,
+    review_state: str | None = None,
+    source_kind: str | None = None,
+) -> dict[int, list[tuple[float | None, str, str, str, int]]]:
+    """For each airfoil id given, its matching revisions grouped by (Reynolds number,
+    surface, review state, source kind) with their counts: one grouped query over the
+    listing index, no table columns read."""
+    if not airfoil_ids:
+        return {}
+    statement = select(
+        PolarRevision.airfoil_id, PolarRevision.reynolds, PolarRevision.surface,
+        PolarRevision.review_state, PolarRevision.source_kind, func.count(PolarRevision.id),
+    ).where(PolarRevision.airfoil_id.in_(list(airfoil_ids)))
+    statement = _revision_filters(
+        statement, airfoil=None, family=None, reynolds=None, surface=surface,
+        review_state=review_state, source_kind=source_kind,
+    ).group_by(
+        PolarRevision.airfoil_id, PolarRevision.reynolds, PolarRevision.surface,
+        PolarRevision.review_state, PolarRevision.source_kind,
+    )
+    groups: dict[int, list[tuple[float | None, str, str, str, int]]] = {}
+    for airfoil_id, reynolds, surface_, state, kind, count in session.execute(statement):
+        groups.setdefault(airfoil_id, []).append((reynolds, surface_, state, kind, count))
+    return groups
 
 
 def set_review_state(
@@ -321,6 +559,7 @@ def set_review_state(
         If either revision does not exist.
     """
     check_choice("state", state, REVIEW_STATES)
+    check_text("reason", reason)
     revision = get_revision(session, content_hash)
     current = revision.review_state
     key = revision.content_hash

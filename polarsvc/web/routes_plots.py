@@ -3,14 +3,13 @@ pages. Each figure and its CSV come from the same view-data function."""
 
 from __future__ import annotations
 
-import re
-
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
 
 from polarsvc import recipes
 from polarsvc.api.deps import ReadSession
 from polarsvc.formats import table_to_csv
+from polarsvc.names import safe_file_stem
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.web import plots, viewdata
@@ -28,9 +27,8 @@ DOWNLOAD_HEADERS = {
 
 
 def download_name(*parts: str) -> str:
-    """A file name built from user-supplied parts, reduced to ``[A-Za-z0-9._-]``."""
-    joined = "-".join(parts)
-    return re.sub(r"[^A-Za-z0-9._-]+", "_", joined).strip("._") or "plot"
+    """A file name built from user-supplied parts (:func:`polarsvc.names.safe_file_stem`)."""
+    return safe_file_stem("-".join(parts) or "plot")
 
 
 def svg_response(body: bytes, filename: str) -> Response:

@@ -10,9 +10,9 @@ from fastapi.responses import HTMLResponse
 
 from polarsvc import pipeline
 from polarsvc.aero.polar import SURFACE_CONDITIONS
+from polarsvc.api import visibility
 from polarsvc.api.deps import ReadSession
 from polarsvc.store import airfoils as airfoil_store
-from polarsvc.store import audit as audit_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import derived as derived_store
 from polarsvc.store import polars as polar_store
@@ -38,6 +38,9 @@ PLOT_TITLES = {
 }
 
 AUDIT_PAGE_LIMIT = 500
+CATALOGUE_FAMILIES = 200
+"""Families listed on the catalogue page (the API pages through all of them)."""
+CATALOGUE_BLADES = 200
 
 
 def url_name(name: str) -> str:
@@ -82,6 +85,7 @@ def add_routes(router: APIRouter) -> None:
         surface: str = "",
         review_state: str = "",
         source_kind: str = "",
+        after: str = "",
     ) -> HTMLResponse:
         filters = viewdata.CatalogueFilters(
             q=q.strip(),
@@ -90,9 +94,15 @@ def add_routes(router: APIRouter) -> None:
             review_state=review_state if review_state in REVIEW_STATES else "",
             source_kind=source_kind if source_kind in SOURCE_KINDS else "",
         )
-        families = airfoil_store.list_families(session)
-        blades = sorted({blade.name for blade in blade_store.list_blades(session)})
-        rows = viewdata.catalogue_rows(session, filters)
+        families = airfoil_store.page_families(session, limit=CATALOGUE_FAMILIES)
+        member_counts = airfoil_store.family_member_counts(session)
+        blades = blade_store.blade_names(session, limit=CATALOGUE_BLADES)
+        page = viewdata.catalogue_rows(session, filters, after=after or None)
+        next_link = None
+        if page.next_cursor is not None:
+            next_link = "/?" + urlencode(
+                {**{k: v for k, v in filters.query().items() if v}, "after": page.next_cursor}
+            )
         return render(
             request,
             "catalogue.html",
@@ -101,9 +111,15 @@ def add_routes(router: APIRouter) -> None:
                 "nav": "catalogue",
                 "title": "Catalogue",
                 "filters": filters,
-                "families": families,
+                "families": families.items,
+                "families_total": families.total,
+                "member_counts": member_counts,
                 "blades": blades,
-                "rows": rows,
+                "rows": page.rows,
+                "rows_total": page.total,
+                "next_link": next_link,
+                "first_page": not after,
+                "filters_query": urlencode({k: v for k, v in filters.query().items() if v}),
                 "surfaces": SURFACE_CONDITIONS,
                 "review_states": REVIEW_STATES,
                 "source_kinds": SOURCE_KINDS,
@@ -121,7 +137,7 @@ def add_routes(router: APIRouter) -> None:
         notice: str = "",
     ) -> HTMLResponse:
         airfoil = airfoil_store.get_airfoil(session, name)
-        revisions = polar_store.list_revisions(session, airfoil=name)
+        revisions = polar_store.list_revisions(session, airfoil=name, with_tables=False)
         selected = viewdata.choose_revision(airfoil, revisions, revision)
         inputs, problems = viewdata.parse_station_inputs(request.query_params)
         tables = plots = derived = None
@@ -299,15 +315,19 @@ def add_routes(router: APIRouter) -> None:
             except viewdata.PageInputError as exc:
                 problems.append(str(exc))
                 moments[field_name] = None
-        events = audit_store.query_events(
+        wanted_actor = actor.strip() or None
+        if wanted_actor is not None and not viewer.sees_identities:
+            problems.append("filtering by actor needs the admin role; the filter was left out")
+            wanted_actor = None
+        rows = visibility.audit_trail(
             session,
+            viewer.principal,
             since=moments["since"],
             until=moments["until"],
             object_key=object.strip() or None,
-            actor=actor.strip() or None,
+            actor=wanted_actor,
             limit=AUDIT_PAGE_LIMIT,
         )
-        rows = [(event, json.loads(event.detail or "{}")) for event in events]
         return render(
             request,
             "audit.html",

@@ -102,6 +102,13 @@ class CatalogueFilters:
     def filters_revisions(self) -> bool:
         return bool(self.surface or self.review_state or self.source_kind)
 
+    def query(self) -> dict[str, str]:
+        """The filters as GET parameters (empty ones included)."""
+        return {
+            "q": self.q, "family": self.family, "surface": self.surface,
+            "review_state": self.review_state, "source_kind": self.source_kind,
+        }
+
 
 @dataclass
 class AirfoilRow:
@@ -115,44 +122,60 @@ class AirfoilRow:
     n_revisions: int = 0
 
 
-def _revision_matches(revision: PolarRevision, filters: CatalogueFilters) -> bool:
-    return (
-        (not filters.surface or revision.surface == filters.surface)
-        and (not filters.review_state or revision.review_state == filters.review_state)
-        and (not filters.source_kind or revision.source_kind == filters.source_kind)
-    )
+CATALOGUE_PAGE_SIZE = 100
 
 
-def catalogue_rows(session: Session, filters: CatalogueFilters) -> list[AirfoilRow]:
-    """Airfoils (by thickness, then name) with a summary of their matching revisions."""
-    airfoils = airfoil_store.list_airfoils(
-        session, family=filters.family or None, search=filters.q or None
+@dataclass
+class CatalogueRows:
+    """One page of the catalogue's airfoil rows, the cursor of the next page and the number
+    of matching airfoils."""
+
+    rows: list[AirfoilRow]
+    next_cursor: str | None
+    total: int | None
+
+
+def catalogue_rows(
+    session: Session, filters: CatalogueFilters, *, after: str | None = None,
+    limit: int = CATALOGUE_PAGE_SIZE,
+) -> CatalogueRows:
+    """Airfoils (by thickness, then name; one keyset page) with a summary of their matching
+    revisions, filtered and summarised in SQL (no table columns read)."""
+    revision_filters = {
+        "surface": filters.surface or None,
+        "review_state": filters.review_state or None,
+        "source_kind": filters.source_kind or None,
+    }
+    page = airfoil_store.page_airfoils(
+        session, family=filters.family or None, search=filters.q or None, after=after,
+        limit=limit,
+        extra_filter=polar_store.revisions_matching(**revision_filters)
+        if filters.filters_revisions else None,
+        extra_key=tuple(revision_filters.values()) if filters.filters_revisions else (),
     )
-    by_airfoil: dict[int, list[PolarRevision]] = defaultdict(list)
-    for revision in polar_store.list_revisions(session):
-        if _revision_matches(revision, filters):
-            by_airfoil[revision.airfoil_id].append(revision)
+    airfoils = [airfoil for airfoil, _ in page.items]
+    groups = polar_store.revision_groups(
+        session, [a.id for a in airfoils], **revision_filters
+    )
     rows = []
     for airfoil in airfoils:
-        revisions = by_airfoil.get(airfoil.id, [])
-        if filters.filters_revisions and not revisions:
-            continue
+        grouped = groups.get(airfoil.id, [])
         counts: dict[str, int] = defaultdict(int)
-        for revision in revisions:
-            counts[revision.review_state] += 1
+        for _, _, state, _, count in grouped:
+            counts[state] += count
         rows.append(
             AirfoilRow(
                 name=airfoil.name,
                 family=None if airfoil.family is None else airfoil.family.name,
                 thickness=airfoil.thickness,
-                reynolds=sorted({r.reynolds for r in revisions if r.reynolds is not None}),
-                surfaces=sorted({r.surface for r in revisions}),
+                reynolds=sorted({g[0] for g in grouped if g[0] is not None}),
+                surfaces=sorted({g[1] for g in grouped}),
                 review_counts=dict(sorted(counts.items())),
-                source_kinds=sorted({r.source_kind for r in revisions}),
-                n_revisions=len(revisions),
+                source_kinds=sorted({g[3] for g in grouped}),
+                n_revisions=sum(g[4] for g in grouped),
             )
         )
-    return rows
+    return CatalogueRows(rows, page.next_cursor, page.total)
 
 
 # -- airfoil page ----------------------------------------------------------------------------

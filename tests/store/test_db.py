@@ -41,7 +41,12 @@ TABLES = {
 def test_migrations_create_the_schema(engine: Engine) -> None:
     assert set(inspect(engine).get_table_names()) == TABLES
     with engine.connect() as connection:
-        assert connection.scalar(text("SELECT version_num FROM alembic_version")) == "0001"
+        from alembic.script import ScriptDirectory
+
+        from polarsvc.store.db import alembic_config
+
+        head = ScriptDirectory.from_config(alembic_config()).get_current_head()
+        assert connection.scalar(text("SELECT version_num FROM alembic_version")) == head
 
 
 def test_migrated_schema_matches_the_models(engine: Engine) -> None:

@@ -7,8 +7,16 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Query, Request
 
 from polarsvc.api.deps import Curator, Reader, ReadSession
-from polarsvc.api.responses import json_response
-from polarsvc.api.schemas import ERROR_RESPONSES, IDENTICAL_EXISTS, AirfoilIn, FamilyIn
+from polarsvc.api.responses import json_response, page_response
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    IDENTICAL_EXISTS,
+    PAGE_SIZE,
+    AfterQuery,
+    AirfoilIn,
+    FamilyIn,
+    LimitQuery,
+)
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
@@ -17,32 +25,49 @@ from polarsvc.store.models import Airfoil, Family
 router = APIRouter(tags=["catalogue"], responses=ERROR_RESPONSES)
 
 
-def airfoil_summary(airfoil: Airfoil) -> dict[str, Any]:
-    """The public form of an airfoil."""
+def airfoil_summary(airfoil: Airfoil, has_coordinates: bool | None = None) -> dict[str, Any]:
+    """The public form of an airfoil (``has_coordinates`` when known without reading the
+    outline)."""
+    if has_coordinates is None:
+        has_coordinates = airfoil.coordinates is not None
     return {
         "name": airfoil.name,
         "family": airfoil.family.name if airfoil.family is not None else None,
         "thickness": airfoil.thickness,
         "description": airfoil.description,
-        "has_coordinates": airfoil.coordinates is not None,
+        "has_coordinates": has_coordinates,
         "created_at": airfoil.created_at.isoformat(),
     }
 
 
-def family_summary(family: Family) -> dict[str, Any]:
-    """The public form of a family with its airfoils by thickness."""
-    members = sorted(family.airfoils, key=lambda a: a.thickness)
+def family_summary(
+    family: Family, members: list[tuple[str, float]] | None = None
+) -> dict[str, Any]:
+    """The public form of a family with its airfoils by thickness (``members``: their
+    names and thicknesses when already read, else from the ORM relation)."""
+    if members is None:
+        members = [(a.name, a.thickness) for a in sorted(
+            family.airfoils, key=lambda a: (a.thickness, a.name))]
     return {
         "name": family.name,
         "description": family.description,
-        "airfoils": [{"name": a.name, "thickness": a.thickness} for a in members],
+        "airfoils": [{"name": name, "thickness": thickness} for name, thickness in members],
         "created_at": family.created_at.isoformat(),
     }
 
 
-@router.get("/families", summary="List families with their airfoils")
-def list_families(session: ReadSession, _: Reader):
-    return json_response([family_summary(f) for f in airfoil_store.list_families(session)])
+@router.get("/families", summary="List families with their airfoils (one page)")
+def list_families(
+    request: Request, session: ReadSession, _: Reader,
+    limit: LimitQuery = PAGE_SIZE, after: AfterQuery = None,
+):
+    """Families by name. Follow the ``Link`` header for the next page."""
+    page = airfoil_store.page_families(session, after=after, limit=limit)
+    members = airfoil_store.family_members(session, [f.id for f in page.items])
+    return page_response(
+        request, [family_summary(f, members[f.id]) for f in page.items],
+        next_cursor=page.next_cursor, total=page.total,
+    )
 
 
 @router.post(
@@ -82,27 +107,36 @@ def get_family(name: str, session: ReadSession, _: Reader):
     return json_response(family_summary(airfoil_store.get_family(session, name)))
 
 
-@router.get("/airfoils", summary="List airfoils (filter by family, search in names)")
+@router.get("/airfoils", summary="List airfoils (filter by family, search in names; one page)")
 def list_airfoils(
+    request: Request,
     session: ReadSession,
     _: Reader,
     family: Annotated[str | None, Query(max_length=200)] = None,
     search: Annotated[str | None, Query(max_length=200)] = None,
+    limit: LimitQuery = PAGE_SIZE,
+    after: AfterQuery = None,
 ):
-    rows = airfoil_store.list_airfoils(session, family=family, search=search)
-    return json_response([airfoil_summary(a) for a in rows])
+    """Airfoils by thickness, then name. Follow the ``Link`` header for the next page."""
+    page = airfoil_store.page_airfoils(
+        session, family=family, search=search, after=after, limit=limit
+    )
+    return page_response(
+        request, [airfoil_summary(a, has) for a, has in page.items],
+        next_cursor=page.next_cursor, total=page.total,
+    )
 
 
 @router.get("/airfoils/{name}", summary="One airfoil with its revisions")
-def get_airfoil(name: str, request: Request, session: ReadSession, _: Reader):
+def get_airfoil(name: str, request: Request, session: ReadSession, principal: Reader):
     airfoil = airfoil_store.get_airfoil(session, name)
     from polarsvc.api.routers.polars import revision_summary
 
-    revisions = polar_store.list_revisions(session, airfoil=name)
+    revisions = polar_store.list_revisions(session, airfoil=name, with_tables=False)
     return json_response(
         {
             **airfoil_summary(airfoil),
             "coordinates": airfoil_store.airfoil_coordinates(airfoil),
-            "revisions": [revision_summary(r) for r in revisions],
+            "revisions": [revision_summary(r, principal) for r in revisions],
         }
     )
