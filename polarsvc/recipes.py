@@ -360,6 +360,7 @@ def blend_family(family: aero.PreparedFamily, params: Mapping[str, Any]) -> Deri
     tables = aero.build_blade_tables(
         family, stations, rotor_radius_m=1.0, rotation_model=None,
         thickness_method=params["thickness_method"], clamp=bool(params["clamp"]),
+        dynamic_stall=False,
     )
     report = {
         key: value
