@@ -4,11 +4,12 @@ Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage e
 3 the server cannot listen where asked (port in use, unknown host), 4 the database's schema
 revision is unknown to this software (:data:`EXIT_SCHEMA_MISMATCH`).
 
-Local commands (import, export, db, token, review, audit, lineage, verify, bundle) work on
-the database named by ``--database-url`` or ``POLARSVC_DATABASE_URL``; else on the database
-the last ``polarsvc serve`` in this folder served (recorded in
-``./polarsvc-data/serving.json``, see :mod:`polarsvc.serving`), so that the tools and the
-demo server share one database; else on the SQLite file ``./polarsvc-data/polarsvc.db``.
+Local commands (import, export, db, token, review, audit, lineage, verify, bundle,
+performance, compare) work on the database named by ``--database-url`` or
+``POLARSVC_DATABASE_URL``; else on the database the last ``polarsvc serve`` in this folder
+served (recorded in ``./polarsvc-data/serving.json``, see :mod:`polarsvc.serving`), so that
+the tools and the demo server share one database; else on the SQLite file
+``./polarsvc-data/polarsvc.db``.
 ``fetch`` talks to a running server (``--server``, ``POLARSVC_SERVER``, else the recorded
 address, else ``http://127.0.0.1:8000``).
 """
@@ -273,9 +274,13 @@ def cmd_import(args: argparse.Namespace) -> int:
         _stderr("no table files found")
         return 1
     factory = _factory(args)
+    if args.create_families:
+        _create_stated_families(factory, files, defaults)
     counts = {"stored": 0, "identical": 0, "refused": 0}
     for index, report in enumerate(
-        import_files(factory, files, actor=_local_actor(), defaults=defaults), start=1
+        import_files(factory, files, actor=_local_actor(), defaults=defaults,
+                     override_quality=args.override_quality),
+        start=1,
     ):
         counts[report.status] += 1
         detail = (
@@ -283,11 +288,69 @@ def cmd_import(args: argparse.Namespace) -> int:
             else f"{report.stored} stored, {report.identical} identical"
         )
         print(f"[{index}/{len(files)}] {report.path}: {report.status} ({detail})", flush=True)
+        for flag in report.flags:
+            print(f"    {format_flag(flag)}", flush=True)
     _stderr(
         f"{len(files)} files: {counts['stored']} stored, {counts['identical']} identical, "
         f"{counts['refused']} refused"
     )
     return 1 if counts["refused"] else 0
+
+
+def format_flag(flag: dict[str, Any]) -> str:
+    """One quality flag as a line of text: level, code, place and message."""
+    where = ", ".join(
+        part for part in (
+            f"line {flag['line']}" if flag.get("line") is not None else "",
+            f"field {flag['field']}" if flag.get("field") else "",
+        ) if part
+    )
+    return f"{flag['level']} {flag['code']}" + (f" ({where})" if where else "") + \
+        f": {flag['message']}"
+
+
+def _create_stated_families(factory: Any, files: Sequence[Path], defaults: dict) -> None:
+    """Create the families the files (or ``--family``) name, before importing them."""
+    from polarsvc.formats import FormatError, parse_polar_file
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    names = set()
+    for path in files:
+        try:
+            parsed = parse_polar_file(path.read_bytes(), filename=path.name, defaults=defaults)
+        except (FormatError, OSError):
+            continue  # the import itself reports the problem
+        names.update(p.family for p in parsed if p.family)
+    with session_scope(factory, write=True) as session:
+        for name in sorted(names):
+            _, created = airfoil_store.get_or_create_family(
+                session, name=name, actor=_local_actor()
+            )
+            if created:
+                _stderr(f"family {name!r} created")
+
+
+def cmd_family(args: argparse.Namespace) -> int:
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=args.action != "list") as session:
+        if args.action == "create":
+            airfoil_store.create_family(
+                session, name=args.name, description=args.description or "",
+                actor=_local_actor(),
+            )
+            print(f"family {args.name!r} created")
+        else:
+            for family in airfoil_store.list_families(session):
+                members = ", ".join(
+                    f"{a.name} ({a.thickness:g}{', retired' if a.retired else ''})"
+                    for a in sorted(family.airfoils, key=lambda a: a.thickness)
+                )
+                print(f"{family.name}\t{members}")
+    return 0
 
 
 def cmd_export(args: argparse.Namespace) -> int:
@@ -343,6 +406,8 @@ def cmd_fetch(args: argparse.Namespace) -> int:
         params[key] = value
     if args.what in ("blade", "package"):
         path = f"/blades/{args.key}/tables"
+    elif args.what == "performance":
+        path = f"/blades/{args.key}/performance"
     elif args.what == "blend":
         path = f"/families/{args.key}/blend"
         params.update(thickness=args.thickness, reynolds=args.reynolds)
@@ -407,9 +472,59 @@ def cmd_review(args: argparse.Namespace) -> int:
     with session_scope(factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=args.revision, state=state, reason=args.reason,
-            replaced_by_hash=args.replaced_by, actor=_local_actor(),
+            replaced_by_hash=args.replaced_by,
+            replacement_reason=getattr(args, "replacement_reason", None),
+            actor=_local_actor(),
         )
         print(f"{revision.content_hash}: {revision.review_state}")
+    return 0
+
+
+PROVENANCE_OPTIONS = ("source_kind", "reference", "facility", "measured_on", "contributor",
+                      "notes")
+
+
+def cmd_correct(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    changes = {k: getattr(args, k) for k in PROVENANCE_OPTIONS if getattr(args, k) is not None}
+    with session_scope(_factory(args), write=True) as session:
+        revision = curation.correct_provenance(
+            session, content_hash=args.revision, changes=changes, reason=args.reason,
+            actor=_local_actor(),
+        )
+        print(f"{revision.content_hash}: supersedes {revision.supersedes.content_hash}")
+    return 0
+
+
+def cmd_airfoil(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    actor = _local_actor()
+    with session_scope(_factory(args), write=True) as session:
+        if args.action == "move":
+            airfoil = curation.move_airfoil(
+                session, name=args.name, family=None if args.family == "-" else args.family,
+                reason=args.reason, actor=actor,
+            )
+            where = airfoil.family.name if airfoil.family else "no family"
+            print(f"airfoil {airfoil.name!r} moved to {where}")
+        elif args.action == "rename":
+            airfoil = curation.rename_airfoil(
+                session, name=args.name, new_name=args.new_name, reason=args.reason,
+                actor=actor,
+            )
+            print(f"airfoil {args.name!r} renamed {airfoil.name!r} (the old name still "
+                  "resolves)")
+        else:
+            airfoil = curation.set_retired(
+                session, name=args.name, retired=args.action == "retire", reason=args.reason,
+                actor=actor,
+            )
+            state = "retired from blends" if airfoil.retired else "reinstated"
+            print(f"airfoil {airfoil.name!r} {state}")
     return 0
 
 
@@ -427,10 +542,29 @@ def cmd_audit(args: argparse.Namespace) -> int:
             print(
                 f"{event.occurred_at.isoformat()}\t{event.actor_name} ({event.actor_role})\t"
                 f"{event.action}\t{event.object_kind}:{event.object_key}\t"
-                f"{event.before_hash or '-'} -> {event.after_hash or '-'}\t"
-                f"{event.remote_addr or '-'}"
+                f"{audit_change(event)}\t{event.remote_addr or '-'}"
             )
     return 0
+
+
+def audit_change(event: Any) -> str:
+    """What an audit event changed, as text: a state change with its reason (reviews,
+    corrections: ``from -> to``), else the hashes before and after."""
+    detail = json.loads(event.detail or "{}")
+    if "from" in detail and "to" in detail:
+        text = f"{_shown(detail['from'])} -> {_shown(detail['to'])}"
+    else:
+        text = f"{event.before_hash or '-'} -> {event.after_hash or '-'}"
+    for key in ("reason", "replaced_by", "override"):
+        if detail.get(key):
+            text += f" ({key}: {detail[key]})"
+    return text
+
+
+def _shown(value: Any) -> str:
+    if isinstance(value, dict):
+        return ", ".join(f"{k}={v}" for k, v in value.items())
+    return "-" if value is None else str(value)
 
 
 def cmd_lineage(args: argparse.Namespace) -> int:
@@ -453,6 +587,133 @@ def cmd_verify(args: argparse.Namespace) -> int:
     report = pipeline.verify_derived(_factory(args), args.key)
     print(json.dumps(report, indent=1))
     return 0 if report["matches"] else 1
+
+
+# -- rotor performance (local database) --------------------------------------------------------
+SPEC_HELP = (
+    "BLADE[:key=value,...] -- a blade name or revision hash, then blade-set and rotor "
+    "settings, e.g. skerry-48:rotation_model=none,approved_only=true,tip_loss=false,"
+    "rated_power_w=2.5e6"
+)
+
+
+class SpecSyntaxError(ValueError):
+    """A comparison side is not written as ``BLADE[:key=value,...]``."""
+
+
+def _spec(text: str) -> Any:
+    """A comparison side from ``BLADE[:key=value,...]`` (fields of the compare request)."""
+    from polarsvc.api.schemas import BladeSetSpec, RotorOptionsIn
+
+    blade, _, rest = text.partition(":")
+    fields: dict[str, Any] = {"blade": blade}
+    rotor: dict[str, Any] = {}
+    turbine: dict[str, Any] = {}
+    for item in filter(None, rest.split(",")):
+        key, sep, value = item.partition("=")
+        if not sep:
+            raise SpecSyntaxError(f"{item!r}: expected key=value")
+        parsed: Any = value
+        if value.lower() in ("true", "false"):
+            parsed = value.lower() == "true"
+        else:
+            try:
+                parsed = float(value)
+            except ValueError:
+                parsed = value
+        if key in RotorOptionsIn.model_fields:
+            rotor[key] = parsed
+        elif key in BladeSetSpec.model_fields:
+            fields[key] = parsed
+        else:
+            turbine[key] = parsed
+    if turbine:
+        rotor["turbine"] = turbine
+    return BladeSetSpec.model_validate({**fields, "rotor": rotor}, strict=False)
+
+
+def _served_performance(factory: Any, spec: Any) -> Any:
+    from polarsvc import pipeline
+    from polarsvc.api.routers.rotor import spec_options
+
+    options, rotor_options = spec_options(spec)
+    return pipeline.rotor_performance(
+        factory, blade_key=spec.blade, options=options, rotor_options=rotor_options,
+        approved_only=bool(spec.approved_only),
+    )
+
+
+def _performance_text(served: Any) -> str:
+    arrays = served.columns
+    best_tsr, fine_pitch, cp_max = arrays["optimum"].tolist()
+    rated = float(arrays["rated_wind_speed_m_s"][0])
+    lines = [
+        f"rotor result {served.content_hash}",
+        f"  recipe {served.recipe_hash} on blade set {served.recipe['inputs']['blade_set']}",
+        f"  Cp max {cp_max:.4f} at tip speed ratio {best_tsr:.3f}, pitch {fine_pitch:.3f} deg",
+        "  rated wind speed " + (f"{rated:.3f} m/s" if rated == rated else "not reached"),
+        "  annual energy (8766 h):",
+    ]
+    for label, energy, capacity in zip(served.reports["distributions"],
+                                       arrays["annual_energy_wh"].tolist(),
+                                       arrays["capacity_factor"].tolist(), strict=True):
+        lines.append(f"    {label}: {energy / 1e6:.1f} MWh, capacity factor {capacity:.3f}")
+    lines.append("  CAUTION: " + served.meta()["rotor_caution"])
+    return "\n".join(lines) + "\n"
+
+
+def cmd_performance(args: argparse.Namespace) -> int:
+    try:
+        spec = _spec(args.spec)
+    except SpecSyntaxError as exc:
+        _stderr(f"spec: {exc}")
+        return 2
+    served = _served_performance(_factory(args), spec)
+    if args.json:
+        from polarsvc.api.responses import dumps
+
+        sys.stdout.buffer.write(dumps({**served.meta(), **served.columns}) + b"\n")
+    else:
+        sys.stdout.write(_performance_text(served))
+    return 0
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from polarsvc import pipeline
+
+    try:
+        specs = [_spec(args.a), _spec(args.b)]
+    except SpecSyntaxError as exc:
+        _stderr(f"spec: {exc}")
+        return 2
+    factory = _factory(args)
+    a, b = (_served_performance(factory, spec) for spec in specs)
+    document = pipeline.compare_performance(a, b)
+    if args.json:
+        from polarsvc.api.responses import dumps
+
+        sys.stdout.buffer.write(dumps(document) + b"\n")
+        return 0
+    lines = [f"b minus a: a = {a.content_hash[:16]}, b = {b.content_hash[:16]}"]
+    for row in document["annual_energy"]:
+        percent = row["delta_percent"]
+        lines.append(f"  {row['distribution']}: {row['delta_mwh']:+.1f} MWh"
+                     + ("" if percent is None else f" ({percent:+.2f} %)"))
+    rated = document["at_rated_wind_speed"]
+    if rated:
+        for key in ("wind_speed_m_s", "thrust_n", "root_flap_moment_n_m",
+                    "root_edge_moment_n_m"):
+            lines.append(f"  at rated: {key} {rated[key]['a']:.6g} -> {rated[key]['b']:.6g}")
+    differences = document["differences"]
+    for change in differences["parameters"]:
+        lines.append(f"  parameter {change['parameter']}: {change['a']!r} -> {change['b']!r}")
+    for side in ("a", "b"):
+        for revision in differences[f"revisions_only_in_{side}"]:
+            lines.append(f"  only in {side}: {revision['revision'][:16]} {revision['airfoil']} "
+                         f"Re={revision['reynolds']:g} [{revision['review_state']}]")
+    lines.append("  CAUTION: " + document["rotor_caution"])
+    sys.stdout.write("\n".join(lines) + "\n")
+    return 0
 
 
 def cmd_bundle(args: argparse.Namespace) -> int:
@@ -515,7 +776,21 @@ def build_parser() -> argparse.ArgumentParser:
     for option in METADATA_OPTIONS:
         importer.add_argument("--" + option.replace("_", "-"), dest=option,
                               help=f"{option} where a file does not state it")
+    importer.add_argument("--create-families", action="store_true",
+                          help="create the families the files name (otherwise a file naming "
+                          "a family that does not exist is refused)")
+    importer.add_argument("--override-quality", metavar="REASON",
+                          help="store files despite error-level quality flags; the reason is "
+                          "kept with each revision and in the audit trail")
     importer.set_defaults(handler=cmd_import)
+
+    family = commands.add_parser("family", help="create or list airfoil families")
+    family_commands = family.add_subparsers(dest="action", required=True)
+    family_create = family_commands.add_parser("create")
+    family_create.add_argument("name")
+    family_create.add_argument("--description")
+    family_create.set_defaults(handler=cmd_family)
+    family_commands.add_parser("list").set_defaults(handler=cmd_family)
 
     exporter = commands.add_parser("export", help="write stored revisions to files")
     exporter.add_argument("destination")
@@ -525,10 +800,10 @@ def build_parser() -> argparse.ArgumentParser:
     exporter.set_defaults(handler=cmd_export)
 
     fetch = commands.add_parser("fetch", help="fetch a derived table or blade set from a server")
-    fetch.add_argument("what", choices=("blade", "package", "blend", "extended", "augmented",
-                                        "resampled", "derived"),
+    fetch.add_argument("what", choices=("blade", "package", "performance", "blend", "extended",
+                                        "augmented", "resampled", "derived"),
                        help="package: a blade's station package (zip: one table per station "
-                       "plus manifest.json)")
+                       "plus manifest.json); performance: a blade set's rotor result")
     fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
     fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER"),
                        help="server address (default: POLARSVC_SERVER, else the address "
@@ -543,6 +818,20 @@ def build_parser() -> argparse.ArgumentParser:
                        help="any other query parameter (repeatable)")
     fetch.add_argument("-o", "--output", help="file to write (default: standard output)")
     fetch.set_defaults(handler=cmd_fetch)
+
+    perf = commands.add_parser(
+        "performance", help="rotor performance of a blade set (steady BEM, power curve, energy)"
+    )
+    perf.add_argument("spec", help=SPEC_HELP)
+    perf.add_argument("--json", action="store_true", help="the whole result as JSON")
+    perf.set_defaults(handler=cmd_performance)
+
+    compare = commands.add_parser("compare", help="compare the rotor performance of two "
+                                  "blade sets (b minus a)")
+    compare.add_argument("a", help=SPEC_HELP)
+    compare.add_argument("b", help=SPEC_HELP)
+    compare.add_argument("--json", action="store_true", help="the comparison as JSON")
+    compare.set_defaults(handler=cmd_compare)
 
     token = commands.add_parser("token", help="create, revoke or list API tokens")
     token_commands = token.add_subparsers(dest="action", required=True)
@@ -564,8 +853,37 @@ def build_parser() -> argparse.ArgumentParser:
     deprecate = review_commands.add_parser("deprecate")
     deprecate.add_argument("revision")
     deprecate.add_argument("--reason", required=True)
-    deprecate.add_argument("--replaced-by")
+    deprecate.add_argument("--replaced-by",
+                           help="the revision replacing this one (same airfoil, Reynolds "
+                           "number, Mach number and surface, unless --replacement-reason)")
+    deprecate.add_argument("--replacement-reason",
+                           help="why a replacement at other conditions is right")
     deprecate.set_defaults(handler=cmd_review)
+    correct = review_commands.add_parser(
+        "correct", help="fix provenance fields by a new revision that supersedes this one")
+    correct.add_argument("revision")
+    correct.add_argument("--reason", required=True)
+    for option in PROVENANCE_OPTIONS:
+        correct.add_argument("--" + option.replace("_", "-"), dest=option,
+                             help=f"corrected {option}")
+    correct.set_defaults(handler=cmd_correct)
+
+    airfoil = commands.add_parser(
+        "airfoil", help="corrections: move, rename, retire from blends, reinstate")
+    airfoil_commands = airfoil.add_subparsers(dest="action", required=True)
+    move = airfoil_commands.add_parser("move", help="move to another family ('-': none)")
+    move.add_argument("name")
+    move.add_argument("family")
+    rename = airfoil_commands.add_parser("rename", help="rename; the old name stays an alias")
+    rename.add_argument("name")
+    rename.add_argument("new_name")
+    retire = airfoil_commands.add_parser("retire", help="leave family blends and blade sets")
+    retire.add_argument("name")
+    reinstate = airfoil_commands.add_parser("reinstate", help="undo a retirement")
+    reinstate.add_argument("name")
+    for command in (move, rename, retire, reinstate):
+        command.add_argument("--reason", required=True)
+        command.set_defaults(handler=cmd_airfoil)
 
     audit = commands.add_parser("audit", help="query the audit trail")
     audit.add_argument("--since", type=_aware_datetime, help="ISO time (UTC if no zone)")

@@ -18,10 +18,10 @@ import orjson
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session, defer, sessionmaker
 
-from polarsvc import describe, recipes
+from polarsvc import describe, performance, recipes
 from polarsvc.aero.errors import InsufficientDataError
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
-from polarsvc.hashing import table_content_hash
+from polarsvc.hashing import result_content_hash, table_content_hash
 from polarsvc.lru import LruCache
 from polarsvc.store import blades as blade_store
 from polarsvc.store import derived as derived_store
@@ -96,6 +96,7 @@ class InputSummary:
     review_state: str
     replaced_by: str | None = None
     family: str | None = None
+    flags: tuple[dict[str, Any], ...] = ()
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -107,6 +108,9 @@ class InputSummary:
             "surface": self.surface,
             "review_state": self.review_state,
             "replaced_by": self.replaced_by,
+            "quality_flags": [
+                {k: f.get(k) for k in ("code", "level", "message")} for f in self.flags
+            ],
         }
 
 
@@ -118,7 +122,7 @@ class ServedTable:
     recipe: dict[str, Any]
     recipe_hash: str
     content_hash: str
-    alpha_deg: np.ndarray
+    alpha_deg: np.ndarray | None
     columns: dict[str, np.ndarray]
     reports: dict[str, Any]
     inputs: tuple[InputSummary, ...]
@@ -131,6 +135,20 @@ class ServedTable:
     def deprecated_inputs(self) -> list[str]:
         return [i.content_hash for i in self.inputs if i.review_state == "deprecated"]
 
+    @property
+    def flagged_inputs(self) -> list[dict[str, Any]]:
+        """Inputs carrying quality flags: revision, airfoil, flag codes, and the worst level."""
+        return [
+            {
+                "revision": i.content_hash,
+                "airfoil": i.airfoil,
+                "flags": [f["code"] for f in i.flags],
+                "level": "error" if any(f["level"] == "error" for f in i.flags) else "warning",
+            }
+            for i in self.inputs
+            if i.flags
+        ]
+
     def meta(self) -> dict[str, Any]:
         """The metadata every derived response carries (JSON-able)."""
         meta: dict[str, Any] = {
@@ -141,6 +159,7 @@ class ServedTable:
             "inputs": [i.as_dict() for i in self.inputs],
             "draws_on_deprecated": bool(self.deprecated_inputs),
             "deprecated_inputs": self.deprecated_inputs,
+            "flagged_inputs": self.flagged_inputs,
             "reports": self.reports,
             "conventions": {
                 "alpha": "deg",
@@ -149,6 +168,15 @@ class ServedTable:
             },
             "caution": CAUTION,
         }
+        if self.kind == "rotor":
+            meta["conventions"] = {
+                "units": "in the array names (_m_s, _rpm, _w, _n, _n_m, _n_per_m, _deg, _wh)",
+                "forces": "per unit length of blade, normal to and in the rotor plane",
+                "moments": "one blade, about the hub radius, rotor-plane axes",
+                "station_arrays": "one row per wind speed of the power curve",
+            }
+            meta["rotor_caution"] = performance.ROTOR_CAUTION
+            meta["blade_set_recipe_hash"] = self.recipe["inputs"].get("blade_set")
         if self.blade is not None:
             meta["blade"] = self.blade
         meta.update(self.extra)
@@ -176,6 +204,7 @@ def _summary(revision: PolarRevision) -> InputSummary:
         review_state=revision.review_state,
         replaced_by=revision.replaced_by.content_hash if revision.replaced_by else None,
         family=revision.airfoil.family.name if revision.airfoil.family else None,
+        flags=tuple(polar_store.revision_flags(revision)),
     )
 
 
@@ -269,12 +298,21 @@ def cached_table(
     return served
 
 
+def result_hash(result: recipes.DerivedResult) -> str:
+    """Content hash of a computed table or result (a rotor result has no angle column)."""
+    if result.alpha_deg is None:
+        return result_content_hash(result.columns)
+    return table_content_hash(result.alpha_deg, *result.columns.values())
+
+
 def compute_and_store(
     factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs,
     policy: CachePolicy = SERVICE_POLICY,
+    load_derived: Callable[[str], recipes.DerivedResult] | None = None,
 ) -> ServedTable:
     """Compute the table of ``recipe`` with the numeric core and, where ``policy`` allows,
-    cache it durably (else it is kept in memory only, in :data:`RECENT_TABLES`)."""
+    cache it durably (else it is kept in memory only, in :data:`RECENT_TABLES`);
+    ``load_derived`` hands over derived inputs already at hand, by recipe hash."""
     key = compute_recipe_hash(recipe)
     memo_key = (_database_key(factory), key)
     loaded: dict[str, Any] = {}
@@ -291,6 +329,8 @@ def compute_and_store(
         load_revision=load_revision,
         load_blade=(lambda _hash: definition) if definition is not None else None,
         family_cache=PREPARED_FAMILIES.get,
+        airfoils={s.content_hash: s.airfoil for s in inputs.summaries},
+        load_derived=load_derived,
     )
     # the reports are served as computed (orjson encodes numpy values in responses) and
     # stored as JSON text once, by put_derived: no encode-decode round trip on a miss
@@ -375,18 +415,26 @@ TABLE_COLUMNS = ("alpha_deg", "cl", "cd", "cm")
 def select_family_members(
     session: Session, *, family: str, surface: str, approved_only: bool
 ) -> list[PolarRevision]:
-    """The revisions a family blend or blade set draws on.
+    """The revisions a family blend or blade set draws on by default.
 
-    For each (airfoil, Reynolds number, surface) the current revision is taken: not
-    superseded by another candidate, and not deprecated while a non-deprecated one exists
-    (a deprecated revision is used only where nothing else holds that condition, and the
-    response says so). With ``approved_only`` only approved revisions are candidates.
+    Candidates: revisions of the family's airfoils that are not retired from blends, with
+    the surface condition and a Reynolds number, not deprecated (a deprecated revision
+    leaves the default selection; it can still be served alone by its hash). For each
+    (airfoil, Reynolds number) the current revision is taken: not superseded by another
+    candidate, else the newest. With ``approved_only`` only approved revisions are
+    candidates.
     """
     family_row = get_family(session, family)
     statement = (
         select(PolarRevision)
         .join(Airfoil)
-        .where(Airfoil.family_id == family_row.id, PolarRevision.surface == surface)
+        .where(
+            Airfoil.family_id == family_row.id,
+            Airfoil.retired_at.is_(None),
+            PolarRevision.surface == surface,
+            PolarRevision.review_state != "deprecated",
+            PolarRevision.reynolds.is_not(None),
+        )
         .options(*(defer(getattr(PolarRevision, c)) for c in TABLE_COLUMNS))
         .order_by(Airfoil.thickness, PolarRevision.reynolds, PolarRevision.id)
     )
@@ -400,20 +448,17 @@ def select_family_members(
             continue
         key = (revision.airfoil_id, revision.reynolds)
         current = chosen.get(key)
-        if current is None or _preference(revision) >= _preference(current):
+        if current is None or revision.id >= current.id:
             chosen[key] = revision
     if not chosen:
         qualifier = "approved " if approved_only else ""
         raise InsufficientDataError(
-            f"family {family!r} has no {qualifier}revisions with surface {surface!r}"
+            f"family {family!r} has no {qualifier}revisions with surface {surface!r} "
+            "(deprecated revisions and retired airfoils are left out)"
         )
     return sorted(
         chosen.values(), key=lambda r: (r.airfoil.thickness, r.reynolds or 0.0, r.id)
     )
-
-
-def _preference(revision: PolarRevision) -> tuple[int, int]:
-    return (0 if revision.review_state == "deprecated" else 1, revision.id)
 
 
 # -- the served kinds ----------------------------------------------------------------------
@@ -441,6 +486,7 @@ def _resolve(
     request_key: tuple[Any, ...],
     resolve: Callable[[Session], tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]],
     policy: CachePolicy,
+    load_derived: Callable[[str], recipes.DerivedResult] | None = None,
 ) -> ServedTable:
     """Resolve a request to its recipe and inputs (or reuse the resolution made since the
     last write), then serve the table."""
@@ -454,7 +500,7 @@ def _resolve(
         recipe, inputs, extra = resolved
         served = cached_table(session, factory, recipe, inputs)
     if served is None:
-        served = compute_and_store(factory, recipe, inputs, policy)
+        served = compute_and_store(factory, recipe, inputs, policy, load_derived)
     elif not served.stored:  # computed earlier for a request that did not store it
         stored = store_table(factory, served, inputs, policy)
         if stored.stored:
@@ -552,6 +598,81 @@ def blade_set(
     )
 
 
+def rotor_performance(
+    factory: sessionmaker[Session],
+    *,
+    blade_key: str,
+    options: Mapping[str, Any],
+    rotor_options: Mapping[str, Any],
+    approved_only: bool,
+    policy: CachePolicy = SERVICE_POLICY,
+) -> ServedTable:
+    """Rotor performance of a blade set: the blade set is served first (from the cache, or
+    computed and stored), then the rotor result on it (``rotor_options`` are the keywords of
+    :func:`polarsvc.performance.rotor_params`), itself cached under its recipe hash."""
+    tables = blade_set(factory, blade_key=blade_key, options=options,
+                       approved_only=approved_only, policy=policy)
+    blade_hash = tables.recipe["inputs"]["blade"]
+
+    def resolve(session: Session):
+        blade = blade_store.get_blade(session, blade_hash)
+        definition = blade_store.blade_definition(blade)
+        params = performance.rotor_params(definition, **rotor_options)
+        hashes = tables.recipe["inputs"]["revisions"]
+        rows = session.scalars(
+            select(PolarRevision)
+            .where(PolarRevision.content_hash.in_(hashes))
+            .options(*(defer(getattr(PolarRevision, c)) for c in TABLE_COLUMNS))
+        ).all()
+        by_hash = {r.content_hash: r for r in rows}
+        inputs = resolve_inputs([by_hash[h] for h in hashes], blade)
+        recipe = recipes.rotor_recipe(tables.recipe, params)
+        return recipe, inputs, {"family": definition["family"]}
+
+    def load_derived(key: str) -> recipes.DerivedResult:
+        if key != tables.recipe_hash:
+            raise NotFound("derived table", key)
+        return recipes.DerivedResult(tables.alpha_deg, tables.columns, tables.reports)
+
+    return _resolve(
+        factory,
+        _request_key("rotor", tables.recipe_hash, dict(rotor_options)),
+        resolve,
+        policy,
+        load_derived,
+    )
+
+
+def compare_performance(a: ServedTable, b: ServedTable) -> dict[str, Any]:
+    """Differences b - a of two served rotor results and of their recipes and inputs
+    (:func:`polarsvc.performance.compare_results`,
+    :func:`polarsvc.performance.recipe_differences`), with both identities and the
+    cautions."""
+
+    def identity(served: ServedTable) -> dict[str, Any]:
+        return {
+            "content_hash": served.content_hash,
+            "recipe_hash": served.recipe_hash,
+            "blade_set_recipe_hash": served.recipe["inputs"].get("blade_set"),
+            "blade": served.blade,
+            "draws_on_deprecated": bool(served.deprecated_inputs),
+        }
+
+    return {
+        "a": identity(a),
+        "b": identity(b),
+        "differences": performance.recipe_differences(
+            a.recipe, b.recipe, [i.as_dict() for i in a.inputs],
+            [i.as_dict() for i in b.inputs],
+        ),
+        **performance.compare_results(
+            a.columns, b.columns, a.reports["distributions"], b.reports["distributions"]
+        ),
+        "caution": CAUTION,
+        "rotor_caution": performance.ROTOR_CAUTION,
+    }
+
+
 def find_blade(session: Session, key: str) -> BladeDefinition:
     try:
         return blade_store.latest_blade(session, key)
@@ -625,6 +746,7 @@ def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str
         recipe = derived_store.derived_recipe(row)
         problems: list[str] = []
         polars = {}
+        airfoils = {r.content_hash: r.airfoil.name for r in row.inputs}
         for revision in row.inputs:
             try:
                 polar_store.verify_revision(revision)
@@ -650,8 +772,9 @@ def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str
             recipe,
             load_revision=polars.__getitem__,
             load_blade=(lambda _h: definition) if definition is not None else None,
+            airfoils=airfoils,
         )
-        recomputed_hash = table_content_hash(result.alpha_deg, *result.columns.values())
+        recomputed_hash = result_hash(result)
         if recomputed_hash != stored_hash:
             problems.append(
                 f"recomputed content hash {recomputed_hash} differs from stored {stored_hash}"

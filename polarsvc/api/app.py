@@ -81,9 +81,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     _install_error_handlers(app)
     _declare_text_rule(app)
 
-    from polarsvc.api.routers import admin, blades, catalogue, derived, polars
+    from polarsvc.api.routers import admin, blades, catalogue, derived, polars, rotor
 
-    for router in (catalogue.router, polars.router, blades.router, derived.router, admin.router):
+    for router in (catalogue.router, polars.router, blades.router, rotor.router,
+                   derived.router, admin.router):
         app.include_router(router, prefix=API_PREFIX)
 
     @app.get(f"{API_PREFIX}/health", tags=["service"])
@@ -152,8 +153,14 @@ def _install_error_handlers(app: FastAPI) -> None:
 
     @app.exception_handler(FormatError)
     async def format_error(_: Request, exc: FormatError):
+        extra = {}
+        if getattr(exc, "file", None) is not None:
+            extra["file"] = exc.file
+        if getattr(exc, "flags", None) is not None:
+            extra["quality_flags"] = exc.flags  # a refusal by quality checks
         return _detail_response(
-            422, str(exc), line=getattr(exc, "line", None), field=getattr(exc, "field", None)
+            422, str(exc), line=getattr(exc, "line", None), field=getattr(exc, "field", None),
+            **extra,
         )
 
     @app.exception_handler(OutOfRangeError)

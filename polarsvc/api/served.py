@@ -3,15 +3,21 @@
 from __future__ import annotations
 
 import hashlib
-import re
 
 from fastapi import Request
 from fastapi.responses import Response
 
-from polarsvc import recipes
+from polarsvc import performance, recipes
 from polarsvc.api.deps import Principal
-from polarsvc.api.responses import dumps, etag_for, etag_matches, table_response
+from polarsvc.api.responses import (
+    arrays_response,
+    dumps,
+    etag_for,
+    etag_matches,
+    table_response,
+)
 from polarsvc.api.settings import Settings
+from polarsvc.names import safe_file_stem
 from polarsvc.package import MEDIA_TYPE as PACKAGE_MEDIA_TYPE
 from polarsvc.package import build_station_package
 from polarsvc.pipeline import CachePolicy, ServedTable
@@ -27,14 +33,15 @@ def cache_policy(settings: Settings, principal: Principal) -> CachePolicy:
 PACKAGE_FORMAT = "zip"
 """The ``format`` value asking a blade set for its station package."""
 
-_UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
-
-def served_response(request: Request, served: ServedTable, fmt: str) -> Response:
-    """The table with its recipe, hashes and reports; ETag is the content hash."""
+def served_response(
+    request: Request, served: ServedTable, fmt: str, part: str = "curve"
+) -> Response:
+    """The table with its recipe, hashes and reports; ETag is the content hash. A rotor
+    result in CSV is the table ``part`` of :data:`polarsvc.performance.TABLE_PARTS`."""
     radii = None
     stations = served.reports.get("stations") if served.reports else None
-    if served.columns["cl"].ndim == 2 and stations:
+    if served.alpha_deg is not None and served.columns["cl"].ndim == 2 and stations:
         radii = [float(s["radius_m"]) for s in stations]
     headers = {
         "X-Polarsvc-Recipe-Hash": served.recipe_hash,
@@ -43,6 +50,13 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
     }
     if served.deprecated_inputs:
         headers["X-Polarsvc-Deprecated-Inputs"] = str(len(served.deprecated_inputs))
+    if served.alpha_deg is None:
+        return arrays_response(
+            request, fmt=fmt, content_hash=served.content_hash, arrays=served.columns,
+            meta={**served.meta(), "part": part} if fmt == "csv" else served.meta(),
+            csv_columns=performance.table_part(served.columns, part) if fmt == "csv" else {},
+            csv_part=part, extra_headers=headers,
+        )
     return table_response(
         request,
         fmt=fmt,
@@ -62,13 +76,13 @@ def package_response(request: Request, served: ServedTable) -> Response:
     meta = served.meta()
     digest = hashlib.sha256(dumps(meta)).hexdigest()[:16]
     etag = etag_for(f"{served.content_hash}.{digest}", PACKAGE_FORMAT)
-    stem = _UNSAFE_NAME.sub("_", str((served.blade or {}).get("name") or "blade")).strip("._")
+    stem = safe_file_stem(str((served.blade or {}).get("name") or "blade"))
     headers = {
         "ETag": etag,
         "X-Polarsvc-Content-Hash": served.content_hash,
         "X-Polarsvc-Recipe-Hash": served.recipe_hash,
         "Content-Disposition": (
-            f'attachment; filename="{stem or "blade"}_{served.content_hash[:12]}.zip"'
+            f'attachment; filename="{stem}_{served.content_hash[:12]}.zip"'
         ),
     }
     if etag_matches(request, etag):

@@ -42,7 +42,9 @@ NAMING_CONVENTION = {
 }
 
 REVIEW_STATES: tuple[str, ...] = ("draft", "approved", "deprecated")
-DERIVED_KINDS: tuple[str, ...] = ("extended", "augmented", "resampled", "blended", "blade-set")
+DERIVED_KINDS: tuple[str, ...] = (
+    "extended", "augmented", "resampled", "blended", "blade-set", "rotor"
+)
 TOKEN_ROLES: tuple[str, ...] = ("reader", "curator", "admin")
 
 HASH_LENGTH = 64
@@ -118,8 +120,31 @@ class Airfoil(Base):
     description: Mapped[str] = mapped_column(Text, default="")
     coordinates: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
+    retired_at: Mapped[dt.datetime | None] = mapped_column(UTCDateTime)
+    retired_reason: Mapped[str | None] = mapped_column(Text)
 
     family: Mapped[Family | None] = relationship(back_populates="airfoils")
+    aliases: Mapped[list[AirfoilAlias]] = relationship(
+        back_populates="airfoil", order_by="AirfoilAlias.id"
+    )
+
+    @property
+    def retired(self) -> bool:
+        """Whether the airfoil is retired from family blends (its data stay stored)."""
+        return self.retired_at is not None
+
+
+class AirfoilAlias(Base):
+    """A former name of an airfoil; it still resolves to the airfoil after a rename."""
+
+    __tablename__ = "airfoil_alias"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(NAME_LENGTH), unique=True)
+    airfoil_id: Mapped[int] = mapped_column(ForeignKey("airfoil.id"), index=True)
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
+
+    airfoil: Mapped[Airfoil] = relationship(back_populates="aliases")
 
 
 class PolarRevision(Base):
@@ -160,6 +185,8 @@ class PolarRevision(Base):
     review_state: Mapped[str] = mapped_column(String(16), default="draft")
     review_reason: Mapped[str | None] = mapped_column(Text)
     replaced_by_id: Mapped[int | None] = mapped_column(ForeignKey("polar_revision.id"))
+    quality_flags: Mapped[str | None] = mapped_column(Text)
+    quality_override: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
 
@@ -190,7 +217,9 @@ class DerivedTable(Base):
 
     ``payload`` holds the canonical float64 bytes of the angle column followed by each
     coefficient array in order; ``payload_shape`` (JSON ``{"columns": [names],
-    "alpha_size": n, "shape": [...]}``) gives the layout.
+    "alpha_size": n, "shape": [...]}``) gives the layout. A result of named arrays of
+    different shapes (kind ``rotor``) has no angle column: its layout is ``{"arrays":
+    [[name, [shape...]], ...]}``, its content hash :func:`polarsvc.hashing.result_content_hash`.
     """
 
     __tablename__ = "derived_table"
