@@ -90,6 +90,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     return app
 
 
+def create_app_from_env() -> FastAPI:
+    """The application with settings from the environment: the factory each worker process
+    of ``polarsvc serve --workers N`` calls (``uvicorn --factory``)."""
+    return create_app(Settings.from_env())
+
+
 def _detail_response(status: int, detail: object, **extra: object):
     return json_response({"detail": detail, **extra}, status_code=status)
 

@@ -17,6 +17,7 @@ from polarsvc.hashing import (
     decode_array_bytes,
     polar_content_hash,
 )
+from polarsvc.lru import LruCache
 from polarsvc.store._lookup import check_choice, find_by_hash, insert_or_winner
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
@@ -240,6 +241,34 @@ def load_polar(revision: PolarRevision) -> Polar:
         history=({"step": "stored-revision", "content_hash": revision.content_hash},),
         assume_degrees=True,
     )
+
+
+def _table_bytes(table: dict[str, Any]) -> int:
+    return sum(array.nbytes for array in table.values()) + 512
+
+
+REVISION_TABLES_MAX_BYTES = 32 * 2**20
+REVISION_TABLES: LruCache[dict[str, Any]] = LruCache(
+    max_entries=20000, max_size=REVISION_TABLES_MAX_BYTES, size_of=_table_bytes
+)
+"""Decoded tables of stored revisions by content hash (a revision's table never changes;
+only its review fields do, and they are not kept here). Bounded in bytes."""
+
+
+def revision_table(revision: PolarRevision) -> dict[str, Any]:
+    """The stored table of a revision as read-only arrays ``alpha_deg, cl, cd[, cm]``,
+    decoded and validated once per content hash (:data:`REVISION_TABLES`)."""
+
+    def load() -> dict[str, Any]:
+        polar = load_polar(revision)
+        table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
+        if polar.cm is not None:
+            table["cm"] = polar.cm
+        for array in table.values():
+            array.flags.writeable = False
+        return table
+
+    return REVISION_TABLES.get(revision.content_hash, load)
 
 
 def verify_revision(revision: PolarRevision) -> str:

@@ -199,10 +199,8 @@ def get_polar_table(
 ):
     fmt = choose_format(request, format)
     revision = polar_store.get_revision(session, content_hash)
-    polar = polar_store.load_polar(revision)
-    columns = {"cl": polar.cl, "cd": polar.cd}
-    if polar.cm is not None:
-        columns["cm"] = polar.cm
+    table = polar_store.revision_table(revision)
+    columns = {name: values for name, values in table.items() if name != "alpha_deg"}
     meta = {
         "kind": "stored",
         "content_hash": revision.content_hash,
@@ -211,7 +209,7 @@ def get_polar_table(
         "caution": pipeline.CAUTION,
     }
     return table_response(
-        request, fmt=fmt, content_hash=revision.content_hash, alpha_deg=polar.alpha_deg,
+        request, fmt=fmt, content_hash=revision.content_hash, alpha_deg=table["alpha_deg"],
         columns=columns, meta=meta,
     )
 
