@@ -1,7 +1,8 @@
 """The ``polarsvc`` command line: a thin layer over the store, the service and the client.
 
 Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage error,
-3 the server cannot listen where asked (port in use, unknown host).
+3 the server cannot listen where asked (port in use, unknown host), 4 the database's schema
+revision is unknown to this software (:data:`EXIT_SCHEMA_MISMATCH`).
 
 Local commands (import, export, db, token, review, audit, lineage, verify, bundle) work on
 the database named by ``--database-url`` or ``POLARSVC_DATABASE_URL``; else on the database
@@ -34,6 +35,10 @@ DEFAULT_SERVER = "http://127.0.0.1:8000"
 EXIT_CANNOT_SERVE = 3
 WORKERS_ENV = "POLARSVC_WORKERS"
 """Environment setting of the number of server processes (``serve --workers`` wins)."""
+
+
+EXIT_SCHEMA_MISMATCH = 4
+"""Exit code when the database carries a schema revision this software does not know."""
 
 
 def _stderr(message: str) -> None:
@@ -118,14 +123,19 @@ def _serve_database_url(args: argparse.Namespace) -> str:
 
 
 def cmd_serve(args: argparse.Namespace) -> int:
+    """Run the service. Every setting comes from its flag or else from its environment
+    variable (table in DEVELOPERS.md, "Settings")."""
     import uvicorn
 
     from polarsvc.api.app import create_app
     from polarsvc.api.settings import Settings
     from polarsvc.serving import CannotServe, bind_listener, write_serving_record
 
-    public_reads = args.public_reads or args.demo
-    if public_reads and not is_loopback(args.host) and not args.read_only:
+    # a command-line flag turns a setting on; otherwise the environment decides
+    environment = Settings.from_env(database_url="")
+    public_reads = args.public_reads or args.demo or environment.public_reads
+    read_only = args.read_only or environment.read_only
+    if public_reads and not is_loopback(args.host) and not read_only:
         _stderr(
             f"refusing public reads with writes open on the non-loopback address {args.host}: "
             "add --read-only, or listen on 127.0.0.1"
@@ -151,13 +161,15 @@ def cmd_serve(args: argparse.Namespace) -> int:
     try:
         database_url = _serve_database_url(args)
         settings = Settings.from_env(
-            database_url=database_url, public_reads=public_reads, read_only=args.read_only,
-            approved_only=args.approved_only or Settings.from_env().approved_only,
+            database_url=database_url, public_reads=public_reads, read_only=read_only,
+            approved_only=args.approved_only or environment.approved_only,
         )
         secret = None
         if args.demo:
             secret, state = _prepare_demo(database_url, fresh=args.fresh)
             _stderr(f"demo database: {database_url} ({state}; public reads on)")
+        else:
+            _prepare_schema(database_url)
         address = f"http://{args.host}:{args.port}"
         write_serving_record(database_url=database_url, address=address, demo=args.demo)
         if secret is not None:
@@ -193,12 +205,10 @@ def _serve_workers(settings: Any, listener: Any, workers: int, args: argparse.Na
 
     The workers build the application from the environment
     (:func:`polarsvc.api.app.create_app_from_env`), so the settings travel there; the
-    schema is migrated once here first, so the workers start on a current database.
+    schema has been brought up to date before, so the workers start on a current database.
     """
     from uvicorn import Config
     from uvicorn.supervisors import Multiprocess
-
-    from polarsvc.store.db import make_engine, upgrade_database
 
     os.environ.update({
         "POLARSVC_DATABASE_URL": settings.database_url,
@@ -207,17 +217,24 @@ def _serve_workers(settings: Any, listener: Any, workers: int, args: argparse.Na
         "POLARSVC_APPROVED_ONLY": "1" if settings.approved_only else "0",
         "POLARSVC_MAX_UPLOAD_BYTES": str(settings.max_upload_bytes),
     })
-    if settings.apply_migrations:
-        engine = make_engine(settings.database_url)
-        try:
-            upgrade_database(engine)
-        finally:
-            engine.dispose()
     config = Config(
         "polarsvc.api.app:create_app_from_env", factory=True, host=args.host, port=args.port,
         log_level=args.log_level, workers=workers,
     )
     Multiprocess(config, sockets=[listener]).run()
+
+
+def _prepare_schema(database_url: str) -> None:
+    """Bring the schema up to date before serving, so that an unusable database is reported
+    in one line (:class:`~polarsvc.store.errors.SchemaMismatch`) instead of from inside the
+    server's start-up."""
+    from polarsvc.store.db import make_engine, upgrade_database
+
+    engine = make_engine(database_url)
+    try:
+        upgrade_database(engine)
+    finally:
+        engine.dispose()
 
 
 def _prepare_demo(database_url: str, *, fresh: bool) -> tuple[str, str]:
@@ -312,6 +329,7 @@ def cmd_import(args: argparse.Namespace) -> int:
 
 def cmd_export(args: argparse.Namespace) -> int:
     from polarsvc.formats import polar_to_csv, polar_to_json
+    from polarsvc.names import path_inside, safe_file_stem
     from polarsvc.store import polars as polar_store
     from polarsvc.store.db import session_scope
 
@@ -327,13 +345,14 @@ def cmd_export(args: argparse.Namespace) -> int:
             provenance = polar_store.revision_provenance(revision)
             family = revision.airfoil.family.name if revision.airfoil.family else None
             extra = {"family": family} if family else None
-            stem = f"{revision.airfoil.name}_{revision.content_hash[:12]}"
+            # the file name comes from a safe form of the name; the name itself is in the file
+            stem = f"{safe_file_stem(revision.airfoil.name)}_{revision.content_hash[:12]}"
             if args.format == "json":
                 document = polar_to_json(
                     polar, airfoil=revision.airfoil.name, provenance=provenance,
                     extra_metadata=extra,
                 )
-                (destination / f"{stem}.json").write_text(
+                path_inside(destination, f"{stem}.json").write_text(
                     json.dumps(document, indent=1), encoding="utf-8"
                 )
             else:
@@ -341,7 +360,7 @@ def cmd_export(args: argparse.Namespace) -> int:
                     polar, airfoil=revision.airfoil.name, provenance=provenance,
                     extra_metadata=extra,
                 )
-                (destination / f"{stem}.csv").write_text(text, encoding="utf-8")
+                path_inside(destination, f"{stem}.csv").write_text(text, encoding="utf-8")
             written += 1
     print(f"{written} revisions written to {destination}")
     return 0
@@ -352,14 +371,14 @@ def cmd_fetch(args: argparse.Namespace) -> int:
     import httpx
 
     server = _server_address(args).rstrip("/") + "/api/v1"
-    params: dict[str, Any] = {"format": args.format}
+    params: dict[str, Any] = {"format": "zip" if args.what == "package" else args.format}
     for item in args.param or []:
         key, sep, value = item.partition("=")
         if not sep:
             _stderr(f"--param {item!r}: expected key=value")
             return 2
         params[key] = value
-    if args.what == "blade":
+    if args.what in ("blade", "package"):
         path = f"/blades/{args.key}/tables"
     elif args.what == "blend":
         path = f"/families/{args.key}/blend"
@@ -547,8 +566,10 @@ def build_parser() -> argparse.ArgumentParser:
     exporter.set_defaults(handler=cmd_export)
 
     fetch = commands.add_parser("fetch", help="fetch a derived table or blade set from a server")
-    fetch.add_argument("what", choices=("blade", "blend", "extended", "augmented", "resampled",
-                                        "derived"))
+    fetch.add_argument("what", choices=("blade", "package", "blend", "extended", "augmented",
+                                        "resampled", "derived"),
+                       help="package: a blade's station package (zip: one table per station "
+                       "plus manifest.json)")
     fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
     fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER"),
                        help="server address (default: POLARSVC_SERVER, else the address "
@@ -622,10 +643,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     args = parser.parse_args(argv)
     from polarsvc.aero.errors import AeroError
     from polarsvc.formats import FormatError
-    from polarsvc.store.errors import StoreError
+    from polarsvc.store.errors import SchemaMismatch, StoreError
 
     try:
         return int(args.handler(args))
+    except SchemaMismatch as exc:
+        _stderr(f"polarsvc {args.command}: {exc}")
+        return EXIT_SCHEMA_MISMATCH
     except (AeroError, FormatError, StoreError, ValueError, OSError) as exc:
         _stderr(f"polarsvc {args.command}: {exc}")
         return 1

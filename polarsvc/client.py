@@ -29,6 +29,7 @@ import httpx
 import numpy as np
 
 from polarsvc.aero import Polar
+from polarsvc.describe import section_conditions
 from polarsvc.formats.binary import (
     ARROW_AVAILABLE,
     ARROW_MEDIA_TYPE,
@@ -37,6 +38,7 @@ from polarsvc.formats.binary import (
     decode_arrow,
     decode_npz,
 )
+from polarsvc.package import StationPackage, read_station_package
 
 __all__ = [
     "AuthError",
@@ -46,6 +48,7 @@ __all__ = [
     "PolarClient",
     "RequestRefused",
     "ServiceError",
+    "StationPackage",
 ]
 
 API_PREFIX = "/api/v1"
@@ -110,14 +113,16 @@ class DerivedTable:
         return self.meta.get("recipe_hash")
 
     def to_polar(self, station: int | None = None) -> Polar:
-        """The table (or one station of a blade set) as a :class:`polarsvc.aero.Polar`."""
+        """The table (or one station of a blade set) as a :class:`polarsvc.aero.Polar`, with
+        the Reynolds number, thickness and surface the table states."""
         if self.cl.ndim == 2:
             if station is None:
                 raise ValueError("a blade set holds several stations: pass station=<index>")
             cm = None if self.cm is None else self.cm[station]
             return Polar(self.alpha_deg, self.cl[station], self.cd[station], cm,
-                         assume_degrees=True)
-        return Polar(self.alpha_deg, self.cl, self.cd, self.cm, assume_degrees=True)
+                         assume_degrees=True, **section_conditions(self.meta, station))
+        return Polar(self.alpha_deg, self.cl, self.cd, self.cm, assume_degrees=True,
+                     **section_conditions(self.meta))
 
 
 def _raise_for(response: httpx.Response) -> None:
@@ -278,6 +283,20 @@ class PolarClient:
     def blade_set(self, blade: str, **params: Any) -> DerivedTable:
         """The station tables of a stored blade definition (arrays are stations x angles)."""
         return self._get_table(f"/blades/{blade}/tables", **params)
+
+    def station_package(
+        self, blade: str, *, path: str | Path | None = None, **params: Any
+    ) -> StationPackage:
+        """A blade set as a station package (one table per station plus a manifest; layout in
+        :mod:`polarsvc.package`), checked against its recorded file hashes; written to
+        ``path`` as a zip archive when given. ``params`` as for :meth:`blade_set`."""
+        response = self._http.get(
+            f"/blades/{blade}/tables", params=_clean({**params, "format": "zip"})
+        )
+        _raise_for(response)
+        if path is not None:
+            Path(path).write_bytes(response.content)
+        return read_station_package(response.content)
 
     def derived(self, content_hash: str) -> DerivedTable:
         """A derived table or blade set by its content or recipe hash."""

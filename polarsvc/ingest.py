@@ -8,7 +8,7 @@ A file is stored whole or not at all: the caller's transaction is rolled back on
 from __future__ import annotations
 
 import json
-from collections.abc import Iterable, Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -16,6 +16,7 @@ from typing import Any
 from sqlalchemy.orm import Session, sessionmaker
 
 from polarsvc.formats import FormatError, parse_polar_file
+from polarsvc.formats.metadata import ParsedPolar
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
@@ -48,6 +49,69 @@ class StoredOutcome:
         }
 
 
+def parse_upload(
+    data: bytes,
+    *,
+    filename: str | None = None,
+    content_type: str | None = None,
+    defaults: Mapping[str, object] | None = None,
+    max_bytes: int = 5_000_000,
+    supersedes: str | None = None,
+) -> list[ParsedPolar]:
+    """Parse an uploaded file without touching the database (so a server parses before it
+    takes the write lock).
+
+    Raises
+    ------
+    FormatError
+        The file cannot be read (names line and field), or ``supersedes`` is given for a
+        file of several polars.
+    """
+    parsed = parse_polar_file(
+        data, filename=filename, content_type=content_type, defaults=defaults,
+        max_bytes=max_bytes,
+    )
+    if supersedes is not None and len(parsed) != 1:
+        raise FormatError(
+            f"'supersedes' applies to a file of one polar; this file holds {len(parsed)}",
+            field="supersedes",
+        )
+    return parsed
+
+
+def store_parsed(
+    session: Session,
+    parsed: Sequence[ParsedPolar],
+    *,
+    actor: Actor,
+    supersedes: str | None = None,
+) -> list[StoredOutcome]:
+    """Store parsed polars in the caller's transaction (see :func:`store_file`)."""
+    outcomes = []
+    for item in parsed:
+        _ensure_airfoil(session, item.airfoil, item.family, item.polar.thickness, actor,
+                        item.source_line)
+        revision, created = polar_store.store_polar(
+            session,
+            airfoil_name=item.airfoil,
+            polar=item.polar,
+            provenance=item.provenance,
+            supersedes_hash=supersedes,
+            actor=actor,
+        )
+        outcomes.append(
+            StoredOutcome(
+                airfoil=item.airfoil,
+                content_hash=revision.content_hash,
+                created=created,
+                reynolds=revision.reynolds,
+                surface=revision.surface,
+                source_line=item.source_line,
+            )
+        )
+    return outcomes
+
+
 def store_file(
     session: Session,
     data: bytes,
@@ -72,38 +136,33 @@ def store_file(
     StoreError
         An airfoil is unknown and the file gives no thickness, or a conflict.
     """
-    parsed = parse_polar_file(
+    parsed = parse_upload(
         data, filename=filename, content_type=content_type, defaults=defaults,
-        max_bytes=max_bytes,
+        max_bytes=max_bytes, supersedes=supersedes,
     )
-    if supersedes is not None and len(parsed) != 1:
-        raise FormatError(
-            f"'supersedes' applies to a file of one polar; this file holds {len(parsed)}",
-            field="supersedes",
-        )
-    outcomes = []
-    for item in parsed:
-        _ensure_airfoil(session, item.airfoil, item.family, item.polar.thickness, actor,
-                        item.source_line)
-        revision, created = polar_store.store_polar(
-            session,
-            airfoil_name=item.airfoil,
-            polar=item.polar,
-            provenance=item.provenance,
-            supersedes_hash=supersedes,
-            actor=actor,
-        )
-        outcomes.append(
-            StoredOutcome(
-                airfoil=item.airfoil,
-                content_hash=revision.content_hash,
-                created=created,
-                reynolds=revision.reynolds,
-                surface=revision.surface,
-                source_line=item.source_line,
-            )
-        )
-    return outcomes
+    return store_parsed(session, parsed, actor=actor, supersedes=supersedes)
+
+
+def store_upload(
+    factory: sessionmaker[Session],
+    data: bytes,
+    *,
+    actor: Actor,
+    filename: str | None = None,
+    content_type: str | None = None,
+    defaults: Mapping[str, object] | None = None,
+    max_bytes: int = 5_000_000,
+    supersedes: str | None = None,
+) -> list[StoredOutcome]:
+    """Parse ``data`` first, then store it whole in one write transaction of its own: the
+    write lock is held for the storing only. Blocking; a server calls it from a worker
+    thread."""
+    parsed = parse_upload(
+        data, filename=filename, content_type=content_type, defaults=defaults,
+        max_bytes=max_bytes, supersedes=supersedes,
+    )
+    with session_scope(factory, write=True) as session:
+        return store_parsed(session, parsed, actor=actor, supersedes=supersedes)
 
 
 def _ensure_airfoil(
@@ -172,13 +231,11 @@ def import_files(
     (the caller shows progress). A refused file leaves the database unchanged."""
     for path in paths:
         try:
-            data = path.read_bytes()
-            with session_scope(factory, write=True) as session:
-                outcomes = store_file(
-                    session, data, actor=actor, filename=path.name, defaults=defaults,
-                    max_bytes=max_bytes,
-                )
-        except (FormatError, StoreError, OSError, ValueError) as exc:
+            outcomes = store_upload(
+                factory, path.read_bytes(), actor=actor, filename=path.name,
+                defaults=defaults, max_bytes=max_bytes,
+            )
+        except (FormatError, StoreError, OSError, ValueError, ArithmeticError) as exc:
             yield FileReport(path=path, stored=0, identical=0, error=str(exc))
             continue
         created = sum(o.created for o in outcomes)

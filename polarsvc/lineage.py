@@ -119,6 +119,13 @@ def derived_node(session: Session, row: DerivedTable) -> dict[str, Any]:
     return node
 
 
+def _who(name: str | None, role: str | None = None) -> str:
+    """A token name in the text form; a hidden one (None) is described by its role."""
+    if name is not None:
+        return name
+    return f"a {role}" if role else "a token (named to admins only)"
+
+
 def lineage_of(session: Session, rows: Sequence[DerivedTable]) -> dict[str, Any]:
     """The lineage of the tables a hash named: the tree of one table, or, for a content hash
     that several recipes gave, a ``content`` node listing each recipe's tree (oldest
@@ -159,7 +166,7 @@ def _derived_text(tree: dict[str, Any]) -> str:
         blade = tree["blade"]
         lines.append(
             f"  blade {blade['name']} {blade['content_hash']} "
-            f"(stored by {blade['uploaded_by']} at {blade['uploaded_at']})"
+            f"(stored by {_who(blade['uploaded_by'])} at {blade['uploaded_at']})"
         )
     lines.append(f"  inputs ({len(tree['inputs'])} stored revisions):")
     for leaf in tree["inputs"]:
@@ -168,7 +175,9 @@ def _derived_text(tree: dict[str, Any]) -> str:
             continue
         conditions = leaf["conditions"]
         provenance = leaf["provenance"]
-        reviews = "; ".join(f"{r['to']} by {r['by']} at {r['at']}" for r in leaf["reviews"])
+        reviews = "; ".join(
+            f"{r['to']} by {_who(r['by'], r.get('role'))} at {r['at']}" for r in leaf["reviews"]
+        )
         lines.append(
             f"    - {leaf['content_hash']}  {leaf['airfoil']} t/c={leaf['thickness']:g} "
             f"Re={conditions['reynolds']:g} {conditions['surface']}  [{leaf['review_state']}]"
@@ -176,7 +185,7 @@ def _derived_text(tree: dict[str, Any]) -> str:
         )
         lines.append(
             f"        source {provenance.get('source_kind')}: {provenance.get('reference')}"
-            f" ({provenance.get('facility')}); uploaded by {leaf['uploaded_by']}"
+            f" ({provenance.get('facility')}); uploaded by {_who(leaf['uploaded_by'])}"
             f" at {leaf['uploaded_at']}" + (f"; reviews: {reviews}" if reviews else "")
         )
     return "\n".join(lines) + "\n"

@@ -18,7 +18,7 @@ import orjson
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session, defer, sessionmaker
 
-from polarsvc import recipes
+from polarsvc import describe, recipes
 from polarsvc.aero.errors import InsufficientDataError
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
 from polarsvc.hashing import table_content_hash
@@ -63,11 +63,13 @@ class InputSummary:
     surface: str
     review_state: str
     replaced_by: str | None = None
+    family: str | None = None
 
     def as_dict(self) -> dict[str, Any]:
         return {
             "revision": self.content_hash,
             "airfoil": self.airfoil,
+            "family": self.family,
             "thickness": self.thickness,
             "reynolds": self.reynolds,
             "surface": self.surface,
@@ -117,7 +119,18 @@ class ServedTable:
         if self.blade is not None:
             meta["blade"] = self.blade
         meta.update(self.extra)
+        meta["describes"] = self.description()
         return meta
+
+    def description(self) -> dict[str, Any]:
+        """What the table holds (see :func:`polarsvc.describe.table_description`)."""
+        families = sorted({i.family for i in self.inputs if i.family is not None})
+        family = self.extra.get("family") or (families[0] if len(families) == 1 else None)
+        airfoil = self.inputs[0].airfoil if len(self.inputs) == 1 else None
+        return describe.table_description(
+            self.kind, self.recipe, self.reports, family=family, airfoil=airfoil,
+            blade=self.blade,
+        )
 
 
 def _summary(revision: PolarRevision) -> InputSummary:
@@ -129,6 +142,7 @@ def _summary(revision: PolarRevision) -> InputSummary:
         surface=revision.surface,
         review_state=revision.review_state,
         replaced_by=revision.replaced_by.content_hash if revision.replaced_by else None,
+        family=revision.airfoil.family.name if revision.airfoil.family else None,
     )
 
 
@@ -298,10 +312,19 @@ def compute_and_store(
     return served
 
 
+BLADE_GEOMETRY_KEYS = ("rotor_radius_m", "hub_radius_m", "blade_count")
+"""Blade-wide values a blade set states beside the blade's name and hash."""
+
+
 def _blade_info(blade: BladeDefinition | None) -> dict[str, Any] | None:
     if blade is None:
         return None
-    return {"name": blade.name, "content_hash": blade.content_hash}
+    definition = blade_store.blade_definition(blade)
+    return {
+        "name": blade.name,
+        "content_hash": blade.content_hash,
+        **{key: definition.get(key) for key in BLADE_GEOMETRY_KEYS},
+    }
 
 
 # -- choosing inputs -----------------------------------------------------------------------

@@ -45,6 +45,7 @@ import numpy as np
 
 from polarsvc import __version__, aero
 from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
+from polarsvc.aero.characteristics import LIFT_LINE_HALF_WINDOW_DEG
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
 from polarsvc.aero.extension import (
     DEFAULT_EXTENSION_STEP_DEG,
@@ -63,6 +64,28 @@ RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
 
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
+MAX_FAMILY_STEP_DEG = LIFT_LINE_HALF_WINDOW_DEG
+"""Coarsest grid of a blade set or blend [deg]: a window of +-5 deg then always holds two
+angles."""
+
+
+def check_family_step(step_deg: float, what: str) -> None:
+    """Refuse a grid too coarse for the attached-flow lift line fitted on a prepared family
+    (blade sets and blends).
+
+    Raises
+    ------
+    ParameterError
+        Naming ``step_deg``.
+    """
+    if float(step_deg) > MAX_FAMILY_STEP_DEG:
+        raise ParameterError(
+            "step_deg",
+            f"{what} needs step_deg <= {MAX_FAMILY_STEP_DEG:g} deg, got {float(step_deg):g}: "
+            f"the attached-flow lift line is fitted to the angles within "
+            f"+-{LIFT_LINE_HALF_WINDOW_DEG:g} deg of the zero-lift angle and needs at least "
+            "two of them",
+        )
 
 DYNAMIC_STALL_COLUMNS = ("f_separation", "cl_fs")
 """Stations x angles arrays of the dynamic-stall inputs served with every blade set."""
@@ -212,6 +235,13 @@ def _single_table(polar: aero.Polar, params: Mapping[str, Any], kind: str) -> ae
     if step is not None:
         grid = aero.uniform_grid(float(step))
         inside = grid[(grid >= polar.alpha_deg[0]) & (grid <= polar.alpha_deg[-1])]
+        if inside.size < 2:
+            raise ParameterError(
+                "step_deg",
+                f"the grid of {float(step):g} deg holds {inside.size} angle(s) within the "
+                f"table's {polar.alpha_deg[0]:g}..{polar.alpha_deg[-1]:g} deg; a table needs "
+                "at least 2: choose a finer step",
+            )
         polar = aero.resample(polar, alpha_deg=inside)
     return polar
 
@@ -350,6 +380,7 @@ def blade_set_params(
     for key in ("wind_speed_m_s", "rotor_speed_rpm"):
         if key not in operating:
             raise ParameterError(key, "is needed: the blade definition has no operating point")
+    check_family_step(step_deg, "a blade set")
     if rotation is not None and rotation.get("model") == "none":
         rotation_block = None
     else:
@@ -502,6 +533,7 @@ def blend_params(
     """Parameters of a family-blend recipe, defaults written out."""
     if thickness_method not in aero.THICKNESS_METHODS:
         raise UnknownMethodError("thickness_method", thickness_method, aero.THICKNESS_METHODS)
+    check_family_step(step_deg, "a blend")
     return {
         "thickness": float(thickness),
         "reynolds": float(reynolds),
@@ -511,3 +543,19 @@ def blend_params(
         "extension": dict(extension or extension_params()),
         "step_deg": float(step_deg),
     }
+
+
+def dynamic_stall_comments(stations: Sequence[Mapping[str, Any]] | None) -> dict[str, str]:
+    """One ``key: value`` comment per blade station for text forms (CSV) of a blade set: its
+    radius and dynamic-stall values (zero-lift angle, attached lift slope, stall onsets),
+    keyed ``dynamic_stall_station_<index>``; the arrays are columns."""
+    comments = {}
+    for report in stations or []:
+        values = report.get("dynamic_stall")
+        if values is None:
+            continue
+        text = " ".join(f"{key}={value}" for key, value in values.items())
+        comments[f"dynamic_stall_station_{report['station']}"] = (
+            f"radius_m={report['radius_m']} {text}"
+        )
+    return comments

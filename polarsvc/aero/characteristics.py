@@ -116,6 +116,11 @@ def _lift_line_arrays(alpha_deg: FloatArray, cl: FloatArray) -> tuple[FloatArray
     reach = LIFT_LINE_HALF_WINDOW_DEG
     columns = (alpha_deg >= low - reach) & (alpha_deg <= high + reach)
     alpha_deg, cl = alpha_deg[columns], cl[:, columns]
+    if alpha_deg.size < 2:
+        raise InsufficientDataError(
+            f"fewer than 2 angles within {low - reach:g}..{high + reach:g} deg: cannot fit the "
+            "attached-flow lift line"
+        )
     alpha0 = _zero_lift_estimate(alpha_deg, cl)
     slope = np.zeros(cl.shape[0])
     liftless = np.all(cl == 0.0, axis=1)

@@ -476,7 +476,7 @@ def extend_full_range(
     if polar.covers_full_range:
         return polar.with_table(
             alpha, cl, cd, cm,
-            step={"step": "extend_full_range", "unchanged": True,
+            step={"step": "extend_full_range", "unchanged": True, "joins": [],
                   "reason": "the table already covers -180..180 deg"},
         )
     a_lo, a_hi = float(alpha[0]), float(alpha[-1])

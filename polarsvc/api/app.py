@@ -5,17 +5,20 @@ from __future__ import annotations
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 
-from fastapi import FastAPI, Request
+from fastapi import Depends, FastAPI, Request
 from fastapi.exceptions import RequestValidationError
+from sqlalchemy.exc import OperationalError
 from sqlalchemy.orm import sessionmaker
 
 from polarsvc import __version__
 from polarsvc.aero.errors import AeroError, OutOfRangeError
+from polarsvc.api.deps import refuse_control_characters
 from polarsvc.api.responses import FormatChoiceError, json_response
 from polarsvc.api.settings import Settings
 from polarsvc.formats import FormatError
+from polarsvc.names import TEXT_PATTERN, InvalidText
 from polarsvc.store import errors as store_errors
-from polarsvc.store.db import make_engine, upgrade_database
+from polarsvc.store.db import is_lock_timeout, make_engine, upgrade_database
 
 CAUTION = (
     "Section tables feed load and energy calculations for machines whose failure can hurt "
@@ -24,6 +27,8 @@ CAUTION = (
 )
 
 API_PREFIX = "/api/v1"
+RETRY_AFTER_S = 1
+"""Seconds a client is asked to wait (``Retry-After``) after a 503 for a busy database."""
 
 DESCRIPTION = f"""
 A curated store of airfoil section polars with provenance, serving full-range
@@ -64,12 +69,14 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         openapi_url=f"{API_PREFIX}/openapi.json",
         docs_url=f"{API_PREFIX}/docs",
         redoc_url=None,
+        dependencies=[Depends(refuse_control_characters)],
     )
     app.state.settings = settings
     from polarsvc.web.sessions import WebSessions
 
     app.state.web_sessions = WebSessions()
     _install_error_handlers(app)
+    _declare_text_rule(app)
 
     from polarsvc.api.routers import admin, blades, catalogue, derived, polars
 
@@ -94,6 +101,29 @@ def create_app_from_env() -> FastAPI:
     """The application with settings from the environment: the factory each worker process
     of ``polarsvc serve --workers N`` calls (``uvicorn --factory``)."""
     return create_app(Settings.from_env())
+
+
+def _declare_text_rule(app: FastAPI) -> None:
+    """Declare in the OpenAPI schema the rule :func:`refuse_control_characters` enforces:
+    every string path or query parameter without a pattern of its own gets
+    :data:`polarsvc.names.TEXT_PATTERN`."""
+    build = app.openapi
+
+    def openapi() -> dict:
+        if app.openapi_schema is not None:
+            return app.openapi_schema
+        schema = build()
+        for operations in schema.get("paths", {}).values():
+            for operation in operations.values():
+                for parameter in operation.get("parameters", ()):
+                    declared = parameter.get("schema", {})
+                    for variant in declared.get("anyOf", [declared]):
+                        if variant.get("type") == "string" and "pattern" not in variant:
+                            variant["pattern"] = TEXT_PATTERN
+        app.openapi_schema = schema
+        return schema
+
+    app.openapi = openapi  # type: ignore[method-assign]
 
 
 def _detail_response(status: int, detail: object, **extra: object):
@@ -136,6 +166,10 @@ def _install_error_handlers(app: FastAPI) -> None:
     async def invalid_value(_: Request, exc: store_errors.InvalidValue):
         return _detail_response(422, str(exc), field=getattr(exc, "field", None))
 
+    @app.exception_handler(InvalidText)
+    async def invalid_text(_: Request, exc: InvalidText):
+        return _detail_response(422, str(exc), field=exc.field)
+
     @app.exception_handler(store_errors.InvalidTransition)
     async def invalid_transition(_: Request, exc: store_errors.InvalidTransition):
         return _detail_response(409, str(exc))
@@ -143,6 +177,16 @@ def _install_error_handlers(app: FastAPI) -> None:
     @app.exception_handler(store_errors.IntegrityProblem)
     async def integrity_problem(_: Request, exc: store_errors.IntegrityProblem):
         return _detail_response(500, f"stored data failed its integrity check: {exc}")
+
+    @app.exception_handler(OperationalError)
+    async def database_busy(request: Request, exc: OperationalError):
+        if not is_lock_timeout(exc):
+            raise exc
+        return json_response(
+            {"detail": "the database is busy with other writes; nothing was changed, "
+                       f"retry in {RETRY_AFTER_S} s"},
+            status_code=503, headers={"Retry-After": str(RETRY_AFTER_S)},
+        )
 
     @app.exception_handler(RequestValidationError)
     async def validation(_: Request, exc: RequestValidationError):

@@ -1,8 +1,12 @@
 """Request dependencies: database sessions and the authenticated principal.
 
-Roles are ordered reader < curator < admin. A token comes as ``Authorization: Bearer <secret>``
-(scripts) or in the HttpOnly session cookie set by the sign-in page (browsers). Reads need a
-reader token unless the server runs with public reads turned on.
+Roles are ordered reader < curator < admin. The API takes a token only as
+``Authorization: Bearer <secret>``. The HttpOnly session cookie set by the sign-in page is
+honoured by the pages alone (:func:`require_role` with ``cookie=True``), whose every form
+carries a CSRF token: a browser attaches the cookie to any request, also one a foreign site
+makes it send, so an API that honoured the cookie would accept forged writes. Scripts have
+their bearer token; the pages need no API call. Reads need a reader token unless the server
+runs with public reads turned on.
 """
 
 from __future__ import annotations
@@ -15,9 +19,11 @@ from fastapi import Depends, HTTPException, Request
 from sqlalchemy.orm import Session
 
 from polarsvc.api.settings import Settings
+from polarsvc.names import find_control
 from polarsvc.store import tokens as token_store
 from polarsvc.store.audit import Actor
 from polarsvc.store.db import session_scope
+from polarsvc.store.errors import InvalidValue
 
 ROLE_RANK = {"public": 0, "reader": 1, "curator": 2, "admin": 3}
 SESSION_COOKIE = "polarsvc_session"
@@ -36,6 +42,18 @@ class Principal:
         return Actor(name=self.name, role=self.role, remote_addr=self.remote_addr)
 
 
+def refuse_control_characters(request: Request) -> None:
+    """Refuse (422, naming the parameter) a path or query parameter holding a control
+    character other than tab and line ends (:func:`polarsvc.names.check_text`). Applied to
+    every route, API and pages, so both databases see the same text (PostgreSQL cannot
+    store NUL)."""
+    items = [*request.path_params.items(), *request.query_params.multi_items()]
+    for name, value in items:
+        for field, text in ((name, name), (name, value)):
+            if isinstance(text, str) and (problem := find_control(text)) is not None:
+                raise InvalidValue(field, problem)
+
+
 def get_settings(request: Request) -> Settings:
     return request.app.state.settings
 
@@ -51,7 +69,7 @@ SettingsDep = Annotated[Settings, Depends(get_settings)]
 ReadSession = Annotated[Session, Depends(read_session)]
 
 
-def _bearer_secret(request: Request) -> str | None:
+def _secret(request: Request, *, cookie: bool) -> str | None:
     header = request.headers.get("authorization")
     if header:
         scheme, _, value = header.partition(" ")
@@ -62,14 +80,14 @@ def _bearer_secret(request: Request) -> str | None:
             detail="Authorization header must be 'Bearer <token>'",
             headers={"WWW-Authenticate": "Bearer"},
         )
-    cookie = request.cookies.get(SESSION_COOKIE)
-    if cookie:
-        return request.app.state.web_sessions.token_for(cookie)
+    session_id = request.cookies.get(SESSION_COOKIE) if cookie else None
+    if session_id:
+        return request.app.state.web_sessions.token_for(session_id)
     return None
 
 
-def _principal(request: Request) -> Principal | None:
-    secret = _bearer_secret(request)
+def _principal(request: Request, *, cookie: bool) -> Principal | None:
+    secret = _secret(request, cookie=cookie)
     if secret is None:
         return None
     remote = request.client.host if request.client else None
@@ -84,14 +102,17 @@ def _principal(request: Request) -> Principal | None:
         return Principal(name=token.name, role=token.role, remote_addr=remote)
 
 
-def require_role(minimum: str):
-    """A dependency that answers 401 without a valid token and 403 with too weak a role."""
+def require_role(minimum: str, *, cookie: bool = False):
+    """A dependency that answers 401 without a valid token and 403 with too weak a role.
+
+    ``cookie=True`` (pages only) also accepts the sign-in session cookie; the API takes
+    bearer tokens only (see the module docstring)."""
 
     def dependency(request: Request) -> Principal:
         settings: Settings = request.app.state.settings
         if minimum != "reader" and settings.read_only:
             raise HTTPException(status_code=403, detail="this server is read-only")
-        principal = _principal(request)
+        principal = _principal(request, cookie=cookie)
         if principal is None:
             if minimum == "reader" and settings.public_reads:
                 remote = request.client.host if request.client else None

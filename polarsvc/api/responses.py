@@ -21,6 +21,7 @@ import orjson
 from fastapi import Request
 from fastapi.responses import Response
 
+from polarsvc.describe import csv_comments as described_comments
 from polarsvc.formats import csv_comment_lines, encode_rows, table_csv_rows
 from polarsvc.formats.binary import (
     ARROW_AVAILABLE,
@@ -138,13 +139,9 @@ def csv_rows(
 
 
 def csv_comments(meta: Mapping[str, Any]) -> bytes:
-    """The scalar entries of a response's metadata as ``# key: value`` lines."""
-    comments = {
-        key: (str(value).lower() if isinstance(value, bool) else value)
-        for key, value in meta.items()
-        if isinstance(value, str | int | float)
-    }
-    return csv_comment_lines(comments).encode("utf-8")
+    """The response's metadata as ``# key: value`` lines: its scalar entries, then what the
+    table holds (:func:`polarsvc.describe.csv_comments`)."""
+    return csv_comment_lines(described_comments(meta)).encode("utf-8")
 
 
 def encode_csv(

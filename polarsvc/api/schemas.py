@@ -12,6 +12,7 @@ from typing import Annotated, Literal
 from fastapi import Query
 from pydantic import BaseModel, ConfigDict, Field, StrictFloat, StrictInt, model_validator
 
+from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
 from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
 
 LimitQuery = Annotated[
@@ -28,6 +29,13 @@ PAGE_SIZE = DEFAULT_PAGE_SIZE
 Number = StrictFloat | StrictInt
 PositiveNumber = Annotated[Number, Field(gt=0, allow_inf_nan=False)]
 FiniteNumber = Annotated[Number, Field(allow_inf_nan=False)]
+Name = Annotated[
+    str,
+    Field(min_length=1, max_length=NAME_MAX_LENGTH, pattern=NAME_PATTERN,
+          description="a name: ASCII letters and digits, space and . _ - + ( ); first a "
+          "letter or digit, no space at the end (polarsvc.names)"),
+]
+FreeText = Annotated[str, Field(max_length=4000, pattern=TEXT_PATTERN)]
 
 
 class StrictModel(BaseModel):
@@ -38,15 +46,15 @@ class ReviewChange(StrictModel):
     """A review decision on a polar revision."""
 
     state: Literal["approved", "deprecated"]
-    reason: Annotated[str, Field(max_length=4000)] | None = None
+    reason: FreeText | None = None
     replaced_by: Annotated[str, Field(min_length=8, max_length=64)] | None = None
 
 
 class FamilyIn(StrictModel):
     """A new airfoil family."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
-    description: Annotated[str, Field(max_length=4000)] = ""
+    name: Name
+    description: FreeText = ""
 
 
 class CoordinatesIn(StrictModel):
@@ -59,12 +67,12 @@ class CoordinatesIn(StrictModel):
 class AirfoilIn(StrictModel):
     """A new airfoil."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
     thickness: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] = Field(
         description="relative thickness t/c as a fraction (0.21, not 21)"
     )
-    family: Annotated[str, Field(min_length=1, max_length=200)] | None = None
-    description: Annotated[str, Field(max_length=4000)] = ""
+    family: Name | None = None
+    description: FreeText = ""
     coordinates: CoordinatesIn | None = None
 
 
@@ -91,8 +99,8 @@ class BladeIn(BaseModel):
 
     model_config = ConfigDict(extra="allow", strict=True)
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
-    family: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
+    family: Name
     rotor_radius_m: PositiveNumber
     hub_radius_m: Annotated[Number, Field(ge=0, allow_inf_nan=False)] = 0.0
     blade_count: Annotated[int, Field(ge=1, le=20)] = 3
@@ -124,7 +132,7 @@ class BladeIn(BaseModel):
 class TokenIn(StrictModel):
     """A new API token."""
 
-    name: Annotated[str, Field(min_length=1, max_length=200)]
+    name: Name
     role: Literal["reader", "curator", "admin"]
     expires_at: dt.datetime | None = Field(
         default=None, description="timezone-aware expiry; none means no expiry"
@@ -149,6 +157,8 @@ ERROR_RESPONSES: dict[int | str, dict[str, object]] = {
     404: {"model": ErrorOut, "description": "no such airfoil, family, revision, blade or table"},
     409: {"model": ErrorOut, "description": "conflict: ambiguous hash prefix, review transition"},
     422: {"model": ErrorOut, "description": "invalid input (line, field or parameter named)"},
+    503: {"model": ErrorOut, "description": "the database stayed busy with other writes past "
+          "its lock timeout; nothing was changed; retry after Retry-After seconds"},
 }
 """Error answers every resource may give, documented once for all routers."""
 

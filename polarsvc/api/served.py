@@ -2,13 +2,22 @@
 
 from __future__ import annotations
 
-from typing import Any
+import hashlib
+import re
 
 from fastapi import Request
 from fastapi.responses import Response
 
-from polarsvc.api.responses import table_response
+from polarsvc import recipes
+from polarsvc.api.responses import dumps, etag_for, etag_matches, table_response
+from polarsvc.package import MEDIA_TYPE as PACKAGE_MEDIA_TYPE
+from polarsvc.package import build_station_package
 from polarsvc.pipeline import ServedTable
+
+PACKAGE_FORMAT = "zip"
+"""The ``format`` value asking a blade set for its station package."""
+
+_UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
 
 def served_response(request: Request, served: ServedTable, fmt: str) -> Response:
@@ -32,20 +41,26 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
         meta=served.meta(),
         stations_radius_m=radii,
         extra_headers=headers,
-        extra_comments=dynamic_stall_comments(stations) if fmt == "csv" else None,
+        extra_comments=recipes.dynamic_stall_comments(stations) if fmt == "csv" else None,
     )
 
 
-def dynamic_stall_comments(stations: list[dict[str, Any]] | None) -> dict[str, str]:
-    """One CSV comment per station with its dynamic-stall values (zero-lift angle, attached
-    lift slope, stall onset); the arrays f_separation and cl_fs are columns."""
-    comments = {}
-    for report in stations or []:
-        values = report.get("dynamic_stall")
-        if values is None:
-            continue
-        text = " ".join(f"{key}={value}" for key, value in values.items())
-        comments[f"dynamic_stall_station_{report['station']}"] = (
-            f"radius_m={report['radius_m']} {text}"
-        )
-    return comments
+def package_response(request: Request, served: ServedTable) -> Response:
+    """A blade set as a station package (:mod:`polarsvc.package`), with the same ETag rule
+    as the tables (content hash, format, digest of the metadata) and a file name."""
+    meta = served.meta()
+    digest = hashlib.sha256(dumps(meta)).hexdigest()[:16]
+    etag = etag_for(f"{served.content_hash}.{digest}", PACKAGE_FORMAT)
+    stem = _UNSAFE_NAME.sub("_", str((served.blade or {}).get("name") or "blade")).strip("._")
+    headers = {
+        "ETag": etag,
+        "X-Polarsvc-Content-Hash": served.content_hash,
+        "X-Polarsvc-Recipe-Hash": served.recipe_hash,
+        "Content-Disposition": (
+            f'attachment; filename="{stem or "blade"}_{served.content_hash[:12]}.zip"'
+        ),
+    }
+    if etag_matches(request, etag):
+        return Response(status_code=304, headers=headers)
+    body = build_station_package(served.alpha_deg, served.columns, meta)
+    return Response(body, media_type=PACKAGE_MEDIA_TYPE, headers=headers)

@@ -16,7 +16,6 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from polarsvc import __version__
 from polarsvc.bundle.layout import (
-    _UNSAFE_PATH_CHARACTERS,
     AIRFOILS_FILE,
     AUDIT_COLUMNS,
     AUDIT_FILE,
@@ -31,6 +30,7 @@ from polarsvc.bundle.layout import (
 from polarsvc.bundle.manifest import BundleFile, BundleManifest
 from polarsvc.bundle.text import _sha256, _timestamp_text, _write_csv
 from polarsvc.formats import FormatError, polar_to_csv
+from polarsvc.names import safe_file_stem
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
@@ -49,11 +49,6 @@ def _json_bytes(document: Any) -> bytes:
     text = json.dumps(document, indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False)
     return (text + "\n").encode("utf-8")
 
-
-def _path_component(name: str) -> str:
-    """A file-system-safe folder name for an airfoil (the real name is kept elsewhere)."""
-    safe = _UNSAFE_PATH_CHARACTERS.sub("_", name)
-    return "_" + safe[1:] if safe.startswith(".") else safe
 
 def _audit_csv(events: Iterable[AuditEvent]) -> bytes:
     lines: list[Sequence[str | None]] = [AUDIT_COLUMNS]
@@ -149,7 +144,7 @@ def _collect(session: Session, family: str | None) -> dict[str, bytes]:
             )
         polar_store.verify_revision(revision)  # never export a row that disagrees with its hash
         airfoil = revision.airfoil
-        path = f"{POLAR_FOLDER}/{_path_component(airfoil.name)}/{revision.content_hash}.csv"
+        path = f"{POLAR_FOLDER}/{safe_file_stem(airfoil.name)}/{revision.content_hash}.csv"
         extra = None if airfoil.family is None else {"family": airfoil.family.name}
         try:
             text = polar_to_csv(

@@ -43,7 +43,6 @@ _AUDIT_LENGTHS: dict[str, int] = {
 }
 """Longest text of each bounded audit column (PostgreSQL enforces them, SQLite does not)."""
 _HASH = re.compile(r"[0-9a-f]{64}")
-_UNSAFE_PATH_CHARACTERS = re.compile(r"[^A-Za-z0-9._-]")
 
 
 class BundleError(ValueError):

@@ -15,6 +15,7 @@ import numpy as np
 
 from polarsvc.aero import SURFACE_CONDITIONS, ParameterError, Polar, PolarValidationError
 from polarsvc.formats.errors import FormatError, shown
+from polarsvc.names import InvalidText, check_name, find_control
 from polarsvc.provenance import PROVENANCE_FIELDS, SOURCE_KINDS
 
 """Valid values of ``source_kind``."""
@@ -90,10 +91,18 @@ def parse_number(text: str, *, line: int | None, field: str) -> float:
 def _as_number(value: object, *, line: int | None, field: str) -> float:
     if isinstance(value, bool):
         raise FormatError(f"expected a number, got {shown(value)}", line=line, field=field)
-    if isinstance(value, int | float):
+    if isinstance(value, int):
+        try:
+            return float(value)
+        except OverflowError:
+            raise FormatError(
+                "the integer is too large for a float (more than 308 digits)",
+                line=line, field=field,
+            ) from None
+    if isinstance(value, float):
         if not math.isfinite(value):
             raise FormatError("the value is not a finite number", line=line, field=field)
-        return float(value)
+        return value
     if isinstance(value, str):
         return parse_number(value, line=line, field=field)
     raise FormatError(f"expected a number, got {shown(value)}", line=line, field=field)
@@ -123,6 +132,15 @@ def _text(value: object, *, line: int | None, field: str) -> str:
     text = value.strip()
     if not text:
         raise FormatError("value is empty", line=line, field=field)
+    if field in IDENTITY_KEYS:
+        try:
+            check_name(field, text)
+        except InvalidText as exc:
+            raise FormatError(exc.detail, line=line, field=field) from None
+    else:
+        control = find_control(text)
+        if control is not None:
+            raise FormatError(control, line=line, field=field)
     return text
 
 

@@ -36,6 +36,15 @@ def _comment(key: str, value: object) -> str:
     return f"# {key}: {text}"
 
 
+def _stored_name(key: str, value: object) -> str:
+    """A stored name as written: kept literally, also one stored before the name grammar
+    (:mod:`polarsvc.names`) existed, so that every database can be exported; reading the
+    file back applies the grammar."""
+    if not isinstance(value, str) or not value.strip():
+        raise FormatError("expected a non-empty name", field=key)
+    return value
+
+
 def _metadata(
     polar: Polar,
     airfoil: str,
@@ -49,9 +58,9 @@ def _metadata(
             raise FormatError(
                 f"cannot be set here; valid keys: {', '.join(EXTRA_KEYS)}", field=key
             )
-    entries: dict[str, Any] = {"airfoil": normalise("airfoil", airfoil, line=None)}
+    entries: dict[str, Any] = {"airfoil": _stored_name("airfoil", airfoil)}
     if given.get("family") is not None:
-        entries["family"] = normalise("family", given["family"], line=None)
+        entries["family"] = _stored_name("family", given["family"])
     entries.update(polar.conditions())
     for key in PROVENANCE_KEYS:
         entries[key] = normalise(key, given.get(key), line=None)

@@ -11,6 +11,7 @@ from sqlalchemy import func, or_, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
+from polarsvc import names
 from polarsvc.store.errors import AmbiguousKey, InvalidValue, NotFound
 
 MIN_PREFIX_LENGTH = 8
@@ -26,12 +27,25 @@ def check_choice(field: str, value: str, allowed: tuple[str, ...]) -> str:
     return value
 
 
-def check_name(field: str, value: str, max_length: int) -> str:
-    """Refuse empty, padded or over-long names (the name is kept literally otherwise)."""
-    if not isinstance(value, str) or not value or value != value.strip():
-        raise InvalidValue(field, f"{value!r} must be a non-empty string without outer spaces")
-    if len(value) > max_length:
-        raise InvalidValue(field, f"longer than {max_length} characters")
+def check_name(field: str, value: str) -> str:
+    """Return ``value`` if it is a valid name (:mod:`polarsvc.names`), else raise
+    :class:`InvalidValue` naming ``field``."""
+    try:
+        return names.check_name(field, value)
+    except names.InvalidText as exc:
+        raise InvalidValue(field, exc.detail) from None
+
+
+def check_text(field: str, value: str | None) -> str | None:
+    """Return ``value`` if it is None or free text without control characters other than
+    tab and line ends (:mod:`polarsvc.names`), else raise :class:`InvalidValue`."""
+    if value is None:
+        return None
+    if not isinstance(value, str):
+        raise InvalidValue(field, f"must be a string, got {type(value).__name__}")
+    control = names.find_control(value)
+    if control is not None:
+        raise InvalidValue(field, control)
     return value
 
 

@@ -12,10 +12,10 @@ from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session, defer, selectinload
 
 from polarsvc.hashing import canonical_json
-from polarsvc.store._lookup import check_name, escape_like
+from polarsvc.store._lookup import check_name, check_text, escape_like
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue, NotFound
-from polarsvc.store.models import NAME_LENGTH, Airfoil, Family
+from polarsvc.store.models import Airfoil, Family
 from polarsvc.store.paging import (
     DEFAULT_PAGE_SIZE,
     Page,
@@ -53,7 +53,8 @@ def get_or_create_family(
     (Family, bool)
         The row and whether it was created. An existing family is returned unchanged.
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
+    check_text("description", description)
     existing = session.scalars(select(Family).where(Family.name == name)).one_or_none()
     if existing is not None:
         return existing, False
@@ -114,7 +115,7 @@ def create_airfoil(
     Parameters
     ----------
     name : str
-        Unique airfoil name, kept literally.
+        Unique airfoil name (:mod:`polarsvc.names`).
     thickness : float
         Relative thickness t/c as a fraction, 0 < t/c <= 1.
     family : str, optional
@@ -136,7 +137,10 @@ def create_airfoil(
     NotFound
         If ``family`` does not exist.
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
+    check_text("description", description)
+    if family is not None:
+        check_name("family", family)
     thickness = float(thickness)
     if not (math.isfinite(thickness) and 0.0 < thickness <= 1.0):
         raise InvalidValue("thickness", f"must lie in (0, 1] as a fraction, got {thickness!r}")

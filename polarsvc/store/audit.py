@@ -102,6 +102,7 @@ def query_events(
     actor: str | None = None,
     limit: int = DEFAULT_QUERY_LIMIT,
     after_id: int | None = None,
+    exclude_object_kinds: Sequence[str] = (),
 ) -> Sequence[AuditEvent]:
     """Audit events in the order they were recorded (oldest first).
 
@@ -118,6 +119,8 @@ def query_events(
     after_id : int, optional
         Only events recorded after the one with this id (keyset pagination: pass the id
         of the last event of the previous page).
+    exclude_object_kinds : sequence of str
+        Leave out events about objects of these kinds (e.g. ``api_token``).
 
     Raises
     ------
@@ -137,5 +140,7 @@ def query_events(
         statement = statement.where(AuditEvent.actor_name == actor)
     if after_id is not None:
         statement = statement.where(AuditEvent.id > int(after_id))
+    if exclude_object_kinds:
+        statement = statement.where(AuditEvent.object_kind.not_in(list(exclude_object_kinds)))
     statement = statement.order_by(AuditEvent.id).limit(limit)
     return session.scalars(statement).all()

@@ -13,7 +13,7 @@ from polarsvc.hashing import blade_content_hash, canonical_json
 from polarsvc.store._lookup import check_name, find_by_hash, insert_or_winner
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import InvalidValue, NotFound
-from polarsvc.store.models import NAME_LENGTH, BladeDefinition
+from polarsvc.store.models import BladeDefinition
 from polarsvc.store.paging import (
     DEFAULT_PAGE_SIZE,
     Page,
@@ -48,7 +48,7 @@ def store_blade(
     InvalidValue
         If the definition cannot be written as canonical JSON (NaN, unsupported types).
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
     try:
         text = canonical_json(dict(definition)).decode("utf-8")
         content_hash = blade_content_hash(name=name, definition=definition)

@@ -14,18 +14,27 @@ from __future__ import annotations
 import contextlib
 import os
 import sqlite3
+import tempfile
 import time
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 from alembic import command
+from alembic import util as alembic_util
 from alembic.config import Config
+from alembic.migration import MigrationContext
+from alembic.script import ScriptDirectory
 from sqlalchemy import Engine, create_engine, event, make_url, text
 from sqlalchemy.engine import URL, Connection
 from sqlalchemy.orm import Session, sessionmaker
 
-from polarsvc.store.errors import IntegrityProblem
+from polarsvc.store.errors import (
+    BackupRefused,
+    IntegrityProblem,
+    InvalidValue,
+    SchemaMismatch,
+)
 
 DATABASE_URL_ENV = "POLARSVC_DATABASE_URL"
 DEFAULT_DATA_DIR = Path("polarsvc-data")
@@ -40,7 +49,9 @@ __all__ = [
     "DATABASE_URL_ENV",
     "WRITE_OPTION",
     "alembic_config",
+    "check_backup_destination",
     "default_database_url",
+    "is_lock_timeout",
     "make_engine",
     "make_session_factory",
     "online_backup",
@@ -96,6 +107,40 @@ def _setup_sqlite(engine: Engine) -> None:
             connection.exec_driver_sql("BEGIN")
 
 
+def _refuse_nul_text(
+    connection: Connection, cursor: Any, statement: str, parameters: Any, context: Any,
+    executemany: bool,
+) -> None:
+    """Last line of defence behind the input checks (:mod:`polarsvc.names`): a text
+    parameter holding NUL is refused on every database alike (PostgreSQL cannot store NUL,
+    SQLite would), naming the bound parameter."""
+    rows = parameters if executemany else (parameters,)
+    positions = getattr(getattr(context, "compiled", None), "positiontup", None) or ()
+    for row in rows or ():
+        pairs = row.items() if isinstance(row, dict) else enumerate(row or ())
+        for key, value in pairs:
+            if isinstance(value, str) and "\x00" in value:
+                if isinstance(key, int) and key < len(positions):
+                    key = positions[key]
+                field = str(key).rsplit("_", 1)[0] if str(key)[-1:].isdigit() else str(key)
+                raise InvalidValue(field, "contains the control character U+0000 (NUL)")
+
+
+LOCK_TIMEOUT_SQLSTATES = frozenset({"55P03", "40001", "40P01"})
+"""PostgreSQL: lock not available (lock_timeout), serialization failure, deadlock."""
+
+
+def is_lock_timeout(exc: BaseException) -> bool:
+    """Whether a database error means "another transaction held the lock too long" (SQLite
+    "database is locked" after the busy timeout; the PostgreSQL states of
+    :data:`LOCK_TIMEOUT_SQLSTATES`): nothing was written and the same request can be
+    retried."""
+    original = getattr(exc, "orig", exc)
+    if isinstance(original, sqlite3.OperationalError):
+        return "database is locked" in str(original) or "database is busy" in str(original)
+    return getattr(original, "sqlstate", None) in LOCK_TIMEOUT_SQLSTATES
+
+
 def make_engine(url: str | URL, **kwargs: Any) -> Engine:
     """An engine for ``url`` (SQLite set up as in the module docstring, PostgreSQL as given).
 
@@ -111,9 +156,11 @@ def make_engine(url: str | URL, **kwargs: Any) -> Engine:
     if parsed.get_backend_name() == "sqlite":
         engine = create_engine(parsed, **kwargs)
         _setup_sqlite(engine)
-        return engine
-    kwargs.setdefault("pool_pre_ping", True)
-    return create_engine(parsed, **kwargs)
+    else:
+        kwargs.setdefault("pool_pre_ping", True)
+        engine = create_engine(parsed, **kwargs)
+    event.listen(engine, "before_cursor_execute", _refuse_nul_text)
+    return engine
 
 
 def make_session_factory(engine: Engine) -> sessionmaker[Session]:
@@ -161,6 +208,19 @@ def alembic_config(connection: Connection | None = None) -> Config:
     return config
 
 
+def _check_known_revision(connection: Connection) -> None:
+    """Refuse a database stamped with a schema revision the packaged migrations lack."""
+    script = ScriptDirectory.from_config(alembic_config())
+    current = MigrationContext.configure(connection).get_current_heads()
+    for found in current:
+        try:
+            known = script.get_revision(found)
+        except alembic_util.CommandError:
+            known = None
+        if known is None:
+            raise SchemaMismatch(found, str(script.get_current_head()))
+
+
 def upgrade_database(engine: Engine, revision: str = "head") -> None:
     """Run the migrations up to ``revision`` inside one write transaction.
 
@@ -171,6 +231,8 @@ def upgrade_database(engine: Engine, revision: str = "head") -> None:
 
     Raises
     ------
+    SchemaMismatch
+        If the database is at a revision these migrations do not know (nothing is changed).
     IntegrityProblem
         If the SQLite foreign-key check finds violations after the upgrade.
     """
@@ -186,6 +248,7 @@ def upgrade_database(engine: Engine, revision: str = "head") -> None:
                     connection.execute(
                         text("SELECT pg_advisory_xact_lock(:key)"), {"key": MIGRATION_LOCK_KEY}
                     )
+                _check_known_revision(connection)
                 command.upgrade(alembic_config(connection), revision)
             if raw is not None:
                 problems = raw.execute("PRAGMA foreign_key_check").fetchall()
@@ -208,40 +271,94 @@ def _sqlite_path(url: str | URL) -> Path:
     return Path(parsed.database)
 
 
+SQLITE_COMPANION_SUFFIXES = ("", "-wal", "-shm", "-journal")
+"""The files SQLite keeps for a database: the file itself, its write-ahead log, its
+shared-memory index and its rollback journal."""
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.samefile(b)
+    except OSError:
+        return False
+
+
+def check_backup_destination(source_path: str | Path, destination_path: str | Path) -> None:
+    """Refuse a backup destination that is the database itself or one of its companion
+    files (:data:`SQLITE_COMPANION_SUFFIXES`), however it is spelled: relative, with ``..``
+    segments or through a symbolic link. Replacing the live file while a server writes to it
+    would leave the server's write-ahead log paired with another image.
+
+    Raises
+    ------
+    BackupRefused
+        Naming the destination and the database it would overwrite.
+    """
+    source = Path(source_path).resolve()
+    destination = Path(destination_path)
+    resolved = destination.resolve()
+    for suffix in SQLITE_COMPANION_SUFFIXES:
+        companion = source.with_name(source.name + suffix)
+        if resolved == companion or _same_file(resolved, companion):
+            what = "the live database" + (f" ({suffix[1:]} file)" if suffix else "")
+            raise BackupRefused(
+                f"refusing to write the backup to {destination}: it is {what} {source}; "
+                "choose another file"
+            )
+
+
 def online_backup(engine_or_url: Engine | str | URL, destination_path: str | Path) -> Path:
     """Copy a live SQLite database with the sqlite3 backup API.
 
     Safe while the service runs: the copy is a consistent snapshot, writers are not blocked
-    for longer than one step. The copy is written to a temporary file beside the
-    destination and renamed into place when complete.
+    for longer than one step. The copy is written to a new temporary file beside the
+    destination and renamed into place when complete (an atomic replacement), so the
+    destination never holds a partial copy.
 
     Parameters
     ----------
     engine_or_url : Engine or str or URL
         The source database.
     destination_path : str or Path
-        File to write; replaced if it exists.
+        File to write; replaced if it exists. Never the source database or one of its
+        -wal, -shm or -journal files (:func:`check_backup_destination`).
 
     Returns
     -------
     Path
         The destination path.
+
+    Raises
+    ------
+    BackupRefused
+        If the destination is the live database or one of its companion files.
     """
     url = engine_or_url.url if isinstance(engine_or_url, Engine) else engine_or_url
     source_path = _sqlite_path(url)
     destination = Path(destination_path)
+    check_backup_destination(source_path, destination)
+    if not source_path.is_file():
+        raise FileNotFoundError(f"no SQLite database at {source_path}")
     destination.parent.mkdir(parents=True, exist_ok=True)
-    partial = destination.with_name(destination.name + ".partial")
-    partial.unlink(missing_ok=True)
-    source = sqlite3.connect(source_path, timeout=SQLITE_BUSY_TIMEOUT_MS / 1000)
+    handle, partial_name = tempfile.mkstemp(
+        prefix=f".{destination.name}.", suffix=".partial", dir=destination.parent
+    )
+    os.close(handle)
+    partial = Path(partial_name)
     try:
-        target = sqlite3.connect(partial)
+        source = sqlite3.connect(source_path, timeout=SQLITE_BUSY_TIMEOUT_MS / 1000)
         try:
-            source.backup(target)
-            target.execute("PRAGMA journal_mode=DELETE")
+            target = sqlite3.connect(partial)
+            try:
+                source.backup(target)
+                target.execute("PRAGMA journal_mode=DELETE")
+            finally:
+                target.close()
         finally:
-            target.close()
+            source.close()
+        # the destination is checked once more just before the rename: a link made meanwhile
+        check_backup_destination(source_path, destination)
+        partial.replace(destination)
     finally:
-        source.close()
-    partial.replace(destination)
+        partial.unlink(missing_ok=True)
     return destination

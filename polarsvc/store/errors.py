@@ -8,6 +8,8 @@ Tree::
     |   +-- AmbiguousKey       a hash prefix matches more than one object
     +-- InvalidValue (also ValueError)   a field holds a value outside its allowed set
     +-- InvalidTransition      a review-state change that is not allowed
+    +-- BackupRefused          a backup destination that would overwrite the live database
+    +-- SchemaMismatch         the database's schema revision is unknown to this software
     +-- IntegrityProblem       stored data disagrees with itself (hash, shape, foreign key)
         +-- AppendOnlyViolation  an attempt to change or delete an audit event
 """
@@ -69,3 +71,28 @@ class IntegrityProblem(StoreError):
 
 class AppendOnlyViolation(IntegrityProblem):
     """An attempt to change or delete an audit event."""
+
+
+class BackupRefused(StoreError):
+    """A backup destination is the live database or one of its companion files."""
+
+
+class SchemaMismatch(StoreError):
+    """The database carries a schema revision this software does not know (written by a
+    newer version, or by something else).
+
+    Attributes
+    ----------
+    revision : str
+        The revision found in the database.
+    head : str
+        The newest revision this software knows.
+    """
+
+    def __init__(self, revision: str, head: str):
+        self.revision = revision
+        self.head = head
+        super().__init__(
+            f"the database is at schema revision {revision!r}, which this software does not "
+            f"know (its newest is {head!r}); use the polarsvc version that wrote it, or a newer one"
+        )

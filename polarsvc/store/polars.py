@@ -18,7 +18,7 @@ from polarsvc.hashing import (
     polar_content_hash,
 )
 from polarsvc.lru import LruCache
-from polarsvc.store._lookup import check_choice, find_by_hash, insert_or_winner
+from polarsvc.store._lookup import check_choice, check_text, find_by_hash, insert_or_winner
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import (
@@ -53,7 +53,8 @@ def normalise_provenance(provenance: Mapping[str, Any]) -> dict[str, Any]:
 
     ``source_kind`` is required and one of :data:`~polarsvc.store.models.SOURCE_KINDS`;
     ``measured_on`` may be a :class:`datetime.date` or an ISO ``YYYY-MM-DD`` string (it is
-    returned as a date); the other fields are strings or None, kept literally.
+    returned as a date); the other fields are strings or None, kept literally (no control
+    characters other than tab and line ends: :func:`polarsvc.names.check_text`).
 
     Raises
     ------
@@ -79,8 +80,7 @@ def normalise_provenance(provenance: Mapping[str, Any]) -> dict[str, Any]:
         raise InvalidValue("measured_on", f"must be a date, got {type(measured_on).__name__}")
     result["measured_on"] = measured_on
     for name in ("reference", "facility", "contributor", "notes"):
-        if result[name] is not None and not isinstance(result[name], str):
-            raise InvalidValue(name, f"must be a string, got {type(result[name]).__name__}")
+        check_text(name, result[name])
     return result
 
 
@@ -588,6 +588,7 @@ def set_review_state(
         If either revision does not exist.
     """
     check_choice("state", state, REVIEW_STATES)
+    check_text("reason", reason)
     revision = get_revision(session, content_hash)
     current = revision.review_state
     key = revision.content_hash

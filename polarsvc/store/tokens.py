@@ -15,7 +15,7 @@ from sqlalchemy.orm import Session
 from polarsvc.store._lookup import check_choice, check_name
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue, NotFound
-from polarsvc.store.models import NAME_LENGTH, TOKEN_ROLES, ApiToken, utc_now
+from polarsvc.store.models import TOKEN_ROLES, ApiToken, utc_now
 
 TOKEN_PREFIX = "psv_"
 """Prefix of every secret, so a leaked one is recognisable (e.g. by secret scanners)."""
@@ -46,7 +46,7 @@ def create_token(
     InvalidValue
         On an unknown role, a bad name or a naive / past expiry.
     """
-    check_name("name", name, NAME_LENGTH)
+    check_name("name", name)
     check_choice("role", role, TOKEN_ROLES)
     if expires_at is not None:
         if expires_at.tzinfo is None or expires_at.utcoffset() is None:

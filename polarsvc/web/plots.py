@@ -218,7 +218,11 @@ def _empty_note(ax, text: str) -> None:
 
 
 def polar_plots_svg(
-    series: Sequence[PlotSeries], *, kind: PlotKind = "cl", title: str | None = None
+    series: Sequence[PlotSeries],
+    *,
+    kind: PlotKind = "cl",
+    title: str | None = None,
+    colour_index: Sequence[int] | None = None,
 ) -> bytes:
     """One polar plot of several series as SVG bytes.
 
@@ -231,6 +235,9 @@ def polar_plots_svg(
         Series without a moment column are left out of a ``cm`` plot.
     title : str, optional
         Plot title; a description of ``kind`` by default.
+    colour_index : sequence of int, optional
+        Palette entry of each series (e.g. one colour for a before/after pair); by default
+        the series' position.
 
     Raises
     ------
@@ -246,7 +253,8 @@ def polar_plots_svg(
             xy = _xy(item, kind)
             if xy is None:
                 continue
-            lines.append(_draw_series(ax, *xy, item, PALETTE[index % len(PALETTE)]))
+            slot = index if colour_index is None else colour_index[index]
+            lines.append(_draw_series(ax, *xy, item, PALETTE[slot % len(PALETTE)]))
             labels.append(_plain(item.label))
         xlabel, ylabel = _axis_labels(kind)
         ax.set_xlabel(xlabel)

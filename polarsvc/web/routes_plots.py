@@ -3,12 +3,13 @@ pages. Each figure and its CSV come from the same view-data function."""
 
 from __future__ import annotations
 
-import re
-
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
 
+from polarsvc import recipes
 from polarsvc.api.deps import ReadSession
+from polarsvc.formats import table_to_csv
+from polarsvc.names import safe_file_stem
 from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import polars as polar_store
 from polarsvc.web import plots, viewdata
@@ -26,9 +27,8 @@ DOWNLOAD_HEADERS = {
 
 
 def download_name(*parts: str) -> str:
-    """A file name built from user-supplied parts, reduced to ``[A-Za-z0-9._-]``."""
-    joined = "-".join(parts)
-    return re.sub(r"[^A-Za-z0-9._-]+", "_", joined).strip("._") or "plot"
+    """A file name built from user-supplied parts (:func:`polarsvc.names.safe_file_stem`)."""
+    return safe_file_stem("-".join(parts) or "plot")
 
 
 def svg_response(body: bytes, filename: str) -> Response:
@@ -189,6 +189,52 @@ def add_routes(router: APIRouter) -> None:
             title=f"Blade {name}: station tables",
         )
         return svg_response(body, download_name(name, "stations", kind))
+
+    @router.get("/plots/blades/{name}/augmentation-{kind}.svg")
+    def blade_augmentation_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        view = blade_data(request, session, name)
+        series, colours = view.augmentation_series(_span(request))
+        body = plots.polar_plots_svg(
+            series, kind=_kind(kind),  # type: ignore[arg-type]
+            title=f"Blade {name}: rotational augmentation, before and after",
+            colour_index=colours,
+        )
+        return svg_response(body, download_name(name, "augmentation", kind))
+
+    @router.get("/plots/blades/{name}/augmentation-{kind}.csv")
+    def blade_augmentation_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _kind(kind)
+        series, _ = blade_data(request, session, name).augmentation_series(_span(request))
+        return csv_response(plots.series_csv(series), download_name(name, "augmentation", kind))
+
+    @router.get("/plots/blades/{name}/dynamic-stall.csv")
+    def blade_dynamic_stall_csv(
+        request: Request, name: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        """The dynamic-stall arrays of the blade set (long layout by station radius), with
+        each station's zero-lift angle, lift slope and stall onset as comments."""
+        view = blade_data(request, session, name)
+        if view.tables is None:
+            raise PageError(404, f"blade {name!r} has no station tables: {view.problems}")
+        columns = {key: view.tables.columns[key] for key in recipes.DYNAMIC_STALL_COLUMNS
+                   if key in view.tables.columns}
+        if not columns:
+            raise PageError(404, f"the station tables of blade {name!r} hold no dynamic-stall "
+                                 "inputs")
+        comments: dict[str, object] = {
+            "blade": view.name,
+            "table": view.tables.content_hash,
+            **recipes.dynamic_stall_comments(view.tables.reports.get("stations")),
+        }
+        body = table_to_csv(
+            view.tables.alpha_deg, columns, header_comments=comments,
+            stations=[float(r) for r in view.radius_m], station_column="radius_m",
+        ).encode("utf-8")
+        return csv_response(body, download_name(name, "dynamic-stall"))
 
     @router.get("/plots/blades/{name}/stations-{kind}.csv")
     def blade_stations_csv(

@@ -10,9 +10,9 @@ from fastapi.responses import HTMLResponse
 
 from polarsvc import pipeline
 from polarsvc.aero.polar import SURFACE_CONDITIONS
+from polarsvc.api import visibility
 from polarsvc.api.deps import ReadSession
 from polarsvc.store import airfoils as airfoil_store
-from polarsvc.store import audit as audit_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import derived as derived_store
 from polarsvc.store import polars as polar_store
@@ -256,6 +256,17 @@ def add_routes(router: APIRouter) -> None:
                 ]
                 if view.tables is not None
                 else [],
+                "augmentation_plots": [
+                    {
+                        "title": f"Before and after augmentation, {PLOT_TITLES[kind]}",
+                        "svg": f"{base}/augmentation-{kind}.svg?{query}&span={span}",
+                        "csv": f"{base}/augmentation-{kind}.csv?{query}&span={span}",
+                    }
+                    for kind, span in (("cl", "near"), ("cd", "near"), ("cl", "full"))
+                ]
+                if view.augmented_stations()
+                else [],
+                "dynamic_stall_csv": f"{base}/dynamic-stall.csv?{query}",
                 "url_name": url_name,
             },
         )
@@ -304,15 +315,19 @@ def add_routes(router: APIRouter) -> None:
             except viewdata.PageInputError as exc:
                 problems.append(str(exc))
                 moments[field_name] = None
-        events = audit_store.query_events(
+        wanted_actor = actor.strip() or None
+        if wanted_actor is not None and not viewer.sees_identities:
+            problems.append("filtering by actor needs the admin role; the filter was left out")
+            wanted_actor = None
+        rows = visibility.audit_trail(
             session,
+            viewer.principal,
             since=moments["since"],
             until=moments["until"],
             object_key=object.strip() or None,
-            actor=actor.strip() or None,
+            actor=wanted_actor,
             limit=AUDIT_PAGE_LIMIT,
         )
-        rows = [(event, json.loads(event.detail or "{}")) for event in events]
         return render(
             request,
             "audit.html",

@@ -1,7 +1,8 @@
 """Access rules of the pages: the API's read rule with a sign-in redirect, the cookie
 session, and the CSRF checks on every form.
 
-Reading pages use the API's own dependency (:func:`polarsvc.api.deps.require_role`); when it
+Reading pages use the API's own dependency (:func:`polarsvc.api.deps.require_role`, with the
+session cookie accepted, which the API itself ignores); when it
 answers 401 the browser is sent to the sign-in page instead of a JSON error. The session cookie
 holds only a random id (:class:`polarsvc.web.sessions.WebSessions`).
 """
@@ -15,6 +16,7 @@ from urllib.parse import quote
 from fastapi import Depends, Form, HTTPException, Request
 
 from polarsvc.api.deps import ROLE_RANK, SESSION_COOKIE, Principal, require_role
+from polarsvc.api.visibility import sees_identities
 from polarsvc.web.sessions import WebSessions, tokens_match
 
 SIGN_IN_COOKIE = "polarsvc_sign_in"
@@ -63,7 +65,7 @@ def sign_in_url(request: Request) -> str:
 
 
 def _page_role(minimum: str):
-    check = require_role(minimum)
+    check = require_role(minimum, cookie=True)
 
     def dependency(request: Request) -> Principal:
         try:
@@ -86,6 +88,11 @@ class Viewer:
     @property
     def signed_in(self) -> bool:
         return self.csrf_token is not None
+
+    @property
+    def sees_identities(self) -> bool:
+        """Whether token names and client addresses are shown (:mod:`polarsvc.api.visibility`)."""
+        return sees_identities(self.principal)
 
     @property
     def is_curator(self) -> bool:

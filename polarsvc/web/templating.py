@@ -3,6 +3,7 @@ the response helper that adds the pages' security headers."""
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 from collections.abc import Mapping
 from pathlib import Path
@@ -60,9 +61,11 @@ def short_hash(value: str | None, length: int = 12) -> str:
 
 
 def format_time(value: Any) -> str:
-    """A timestamp as ``YYYY-MM-DD HH:MM:SS UTC``."""
+    """A timestamp (a datetime or its ISO text) as ``YYYY-MM-DD HH:MM:SS UTC``."""
     if value is None:
         return "—"
+    if isinstance(value, str):
+        value = dt.datetime.fromisoformat(value)
     return value.strftime("%Y-%m-%d %H:%M:%S UTC")
 
 

@@ -36,6 +36,10 @@ NEAR_WINDOW_DEG = (-30.0, 40.0)
 
 PLOT_SPANS: tuple[str, ...] = ("near", "full")
 
+PLOT_COLUMNS = ("cl", "cd", "cm")
+"""The coefficient columns a plot series takes from a served table (blade sets also hold
+the dynamic-stall arrays)."""
+
 
 class PageInputError(ValueError):
     """A page input (query parameter) that cannot be used; ``field`` names it."""
@@ -283,13 +287,13 @@ class AirfoilTables:
         if self.extended is not None:
             out.append(
                 series_from_arrays(
-                    "full range (extended)", self.extended.alpha_deg, self.extended.columns,
-                    "line", span,
+                    "2D, full range (before augmentation)", self.extended.alpha_deg,
+                    self.extended.columns, "line", span,
                 )
             )
         if self.augmented is not None:
             label = (
-                f"rotational augmentation ({self.inputs.model}, r/R {self.inputs.r_over_R:g}, "
+                f"after augmentation ({self.inputs.model}, r/R {self.inputs.r_over_R:g}, "
                 f"c/r {self.inputs.chord_over_r:g})"
             )
             out.append(
@@ -298,6 +302,37 @@ class AirfoilTables:
                 )
             )
         return out
+
+
+    def augmentation_facts(self) -> list[tuple[str, str]]:
+        """What the augmentation did at the page's station (from the served table's
+        history): stall angle, fade, factors, clipping and calibration range."""
+        if self.augmented is None:
+            return []
+        steps = self.augmented.reports.get("steps") or []
+        step = next((s for s in reversed(steps) if s.get("step") == "augment_rotation"), None)
+        if step is None:
+            return []
+        facts = [
+            ("stall angle of the section", f"{step['stall_deg']:g} deg"),
+            ("fade (smooth step)",
+             f"full to {step['fade_start_deg']:g} deg, none from {step['fade_end_deg']:g} deg"),
+            ("sides", "both" if step.get("negative_side") else
+             f"above the zero-lift angle ({step['alpha0_deg']:.3g} deg) only"),
+            ("lift factor applied", f"{step['lift_factor']:.4g}"),
+            ("drag factor applied", f"{step['drag_factor']:.4g}"),
+        ]
+        for clipped in step.get("clipped_factors") or []:
+            facts.append((f"{clipped['factor'].replace('_', ' ')} clipped",
+                          f"{clipped['raw']:.4g} -> {clipped['applied']:g}"))
+        calibration = step.get("calibration_chord_over_r") or {}
+        if step.get("chord_over_r_outside_calibration"):
+            facts.append((
+                "c/r outside the model's calibration",
+                f"{step['chord_over_r']:g} not in {calibration.get('low', 0):g}.."
+                f"{calibration.get('high', 0):g} ({calibration.get('source', '')})",
+            ))
+        return facts
 
 
 def airfoil_tables(
@@ -560,6 +595,55 @@ class BladeView:
     clamp: bool
     tables: ServedTable | None
     problems: list[str]
+    plain: ServedTable | None = None
+
+    AUGMENTED_STATIONS_SHOWN = 4
+
+    def augmented_stations(self) -> list[int]:
+        """Indices of the innermost stations whose lift the augmentation changed (at most
+        :attr:`AUGMENTED_STATIONS_SHOWN`)."""
+        if self.tables is None or self.plain is None:
+            return []
+        after = np.asarray(self.tables.columns["cl"])
+        before = np.asarray(self.plain.columns["cl"])
+        changed = np.flatnonzero(np.max(np.abs(after - before), axis=1) > 0.0)
+        return [int(i) for i in changed[: self.AUGMENTED_STATIONS_SHOWN]]
+
+    def augmentation_series(self, span: str) -> tuple[list[PlotSeries], list[int]]:
+        """Before (2D, dashed) and after (augmented, solid) at the innermost augmented
+        stations, with one palette colour per station."""
+        series, colours = [], []
+        if self.tables is None or self.plain is None:
+            return series, colours
+        for slot, index in enumerate(self.augmented_stations()):
+            radius = float(self.radius_m[index])
+            for label, table, style in (("2D", self.plain, "dashed"),
+                                        ("augmented", self.tables, "line")):
+                station = {name: np.asarray(values)[index]
+                           for name, values in table.columns.items() if name in PLOT_COLUMNS}
+                series.append(series_from_arrays(
+                    f"r {radius:g} m, {label}", table.alpha_deg, station, style, span))
+                colours.append(slot)
+        return series, colours
+
+    def station_rows(self) -> list[dict[str, Any]]:
+        """Per station: the augmentation's stall angle and fade, flags, and the dynamic-stall
+        values served with the blade set (empty without tables)."""
+        if self.tables is None:
+            return []
+        rows = []
+        for report in self.tables.reports.get("stations") or []:
+            rotation = report.get("rotation") or {}
+            rows.append({
+                "rotation": rotation,
+                "dynamic_stall": report.get("dynamic_stall") or {},
+                "flags": [
+                    f"{c['factor'].replace('_', ' ')} clipped ({c['raw']:.3g} -> "
+                    f"{c['applied']:g})" for c in rotation.get("clipped_factors") or []
+                ] + (["c/r outside calibration"]
+                     if rotation.get("chord_over_r_outside_calibration") else []),
+            })
+        return rows
 
     def station_series(self, span: str) -> tuple[list[PlotSeries], list[float]]:
         if self.tables is None:
@@ -567,7 +651,8 @@ class BladeView:
         columns = self.tables.columns
         series = []
         for index, radius in enumerate(self.radius_m):
-            station = {name: np.asarray(values)[index] for name, values in columns.items()}
+            station = {name: np.asarray(values)[index] for name, values in columns.items()
+                       if name in PLOT_COLUMNS}
             series.append(
                 series_from_arrays(f"r {radius:g} m", self.tables.alpha_deg, station, "line", span)
             )
@@ -612,10 +697,15 @@ def blade_view(
     }
     problems: list[str] = []
     clamp = (params.get("clamp") or "yes") != "no"
-    tables = reynolds = None
+    tables = reynolds = plain = None
     try:
         tables = pipeline.blade_set(
             factory, blade_key=blade.content_hash, options={"clamp": clamp},
+            approved_only=approved_only,
+        )
+        plain = pipeline.blade_set(
+            factory, blade_key=blade.content_hash,
+            options={"clamp": clamp, "rotation": {"model": "none"}},
             approved_only=approved_only,
         )
         station_reports = tables.reports.get("stations") or []
@@ -637,5 +727,6 @@ def blade_view(
         clamp=clamp,
         tables=tables,
         problems=problems,
+        plain=plain,
         **columns,
     )

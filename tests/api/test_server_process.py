@@ -3,12 +3,8 @@ the Python client and plain HTTP."""
 
 from __future__ import annotations
 
-import os
-import re
-import socket
 import subprocess
 import sys
-import time
 from pathlib import Path
 
 import httpx
@@ -16,50 +12,16 @@ import numpy as np
 import pytest
 
 from polarsvc.client import PolarClient, RequestRefused
+from polarsvc.package import read_station_package
+from tests.demo_server import clean_environment, running_demo_server
 
 REPO = Path(__file__).resolve().parents[2]
 
 
-def free_port() -> int:
-    with socket.socket() as sock:
-        sock.bind(("127.0.0.1", 0))
-        return sock.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def demo_server(tmp_path_factory):
-    workdir = tmp_path_factory.mktemp("server")
-    port = free_port()
-    log = (workdir / "server.log").open("w+")
-    env = {**os.environ, "PYTHONUNBUFFERED": "1"}
-    env.pop("POLARSVC_DATABASE_URL", None)
-    process = subprocess.Popen(
-        [sys.executable, "-m", "polarsvc.cli", "serve", "--demo", "--port", str(port),
-         "--log-level", "warning"],
-        cwd=workdir, stdout=log, stderr=subprocess.STDOUT, env=env,
-    )
-    base = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 60
-        while time.monotonic() < deadline:
-            if process.poll() is not None:
-                log.seek(0)
-                pytest.fail(f"server exited: {log.read()}")
-            try:
-                if httpx.get(base + "/api/v1/health", timeout=1).status_code == 200:
-                    break
-            except httpx.HTTPError:
-                time.sleep(0.2)
-        else:
-            pytest.fail("server did not answer within 60 s")
-        log.seek(0)
-        match = re.search(r"admin token \(shown once, not stored in clear\): (psv_\S+)", log.read())
-        assert match, "the demo start prints a one-time admin token"
-        yield base, match.group(1), workdir
-    finally:
-        process.terminate()
-        process.wait(timeout=20)
-        log.close()
+    with running_demo_server(tmp_path_factory.mktemp("server")) as server:
+        yield server.base, server.admin_token, server.workdir
 
 
 def test_demo_server_serves_blade_sets_to_the_client(demo_server):
@@ -124,11 +86,8 @@ def test_cli_fetch_writes_a_blade_set_file(demo_server, tmp_path):
 
 def run_cli(*arguments: str, cwd: Path, timeout: float = 120) -> subprocess.CompletedProcess:
     """The command line as a user runs it: in the server's folder, no database named."""
-    env = {**os.environ}
-    env.pop("POLARSVC_DATABASE_URL", None)
-    env.pop("POLARSVC_SERVER", None)
     return subprocess.run(
-        [sys.executable, "-m", "polarsvc.cli", *arguments], cwd=cwd, env=env,
+        [sys.executable, "-m", "polarsvc.cli", *arguments], cwd=cwd, env=clean_environment(),
         capture_output=True, text=True, timeout=timeout,
     )
 
@@ -154,3 +113,14 @@ def test_a_second_server_on_a_busy_port_fails_before_printing_a_token(demo_serve
     assert result.returncode == 3
     assert f"127.0.0.1:{port}" in result.stderr and "in use" in result.stderr
     assert "token" not in result.stderr and "http://" not in result.stderr
+
+
+def test_cli_fetches_the_station_package_from_the_server_of_its_folder(demo_server, tmp_path):
+    base, _, workdir = demo_server
+    target = tmp_path / "skerry-48.zip"
+    result = run_cli("fetch", "package", "skerry-48", "-o", str(target), cwd=workdir)
+    assert result.returncode == 0, result.stderr
+    package = read_station_package(target)
+    served = httpx.get(base + "/api/v1/blades/skerry-48/tables").json()
+    assert package.content_hash == served["content_hash"]
+    np.testing.assert_array_equal(package.columns["cd"], np.array(served["cd"]))

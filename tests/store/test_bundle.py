@@ -60,8 +60,9 @@ SEED_DIR = Path(__file__).resolve().parents[2] / "seed_polars"
 IMPORTER = Actor(name="skerry-admin", role="admin", remote_addr="10.0.0.7")
 REVIEWER = Actor(name="skerry-reviewer", role="curator", remote_addr=None)
 
-HOSTILE_FAMILY = "skua <i>\"lab\"</i>'; DELETE FROM family;--"
-HOSTILE_AIRFOIL = "SKUA-210 ../<b>x</b>'; DROP TABLE polar_revision;--"
+# names keep to the name grammar (polarsvc.names) but still read as SQL and as a path
+HOSTILE_FAMILY = "skua (lab) - DELETE FROM family"
+HOSTILE_AIRFOIL = "SKUA-210 .. (x) DROP TABLE polar_revision --"
 HOSTILE_NOTES = "<script>alert('x')</script>\n'; DROP TABLE audit_event;-- & %s {0}"
 SEED_FILES = (
     "SKUA-210_re4e6_clean.csv",

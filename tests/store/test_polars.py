@@ -98,9 +98,12 @@ def test_provenance_is_part_of_identity(seeded: sessionmaker[Session]) -> None:
 
 
 def test_literal_text_with_sql_and_html(seeded: sessionmaker[Session]) -> None:
-    name = "SKUA'); DROP TABLE airfoil;--<b>"
+    name = "SKUA_x (DROP TABLE airfoil) --"  # within the name grammar (polarsvc.names)
     notes = "<script>alert('x')</script> %_ \\ \"; DELETE FROM audit_event; --"
     with session_scope(seeded, write=True) as session:
+        with pytest.raises(InvalidValue, match="not a valid name"):
+            create_airfoil(session, name="SKUA'); DROP TABLE airfoil;--<b>", thickness=0.25,
+                           actor=CURATOR)
         create_airfoil(session, name=name, thickness=0.25, description=notes, actor=CURATOR)
     key, _ = _store(
         seeded,
@@ -112,7 +115,8 @@ def test_literal_text_with_sql_and_html(seeded: sessionmaker[Session]) -> None:
         revision = get_revision(session, key)
         assert revision.notes == notes and revision.facility == "<i>tunnel</i>"
         assert revision.airfoil.name == name and get_airfoil(session, name).description == notes
-        assert [a.name for a in list_airfoils(session, search="'); drop")] == [name]
+        assert [a.name for a in list_airfoils(session, search="x (drop")] == [name]
+        assert list_airfoils(session, search="k_a") == []  # "_" is literal, not a wildcard
         assert list_airfoils(session, search="%") == []  # wildcards are literal
         assert session.execute(text("SELECT count(*) FROM audit_event")).scalar() == 5
 

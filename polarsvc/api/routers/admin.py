@@ -5,15 +5,15 @@ from __future__ import annotations
 import datetime as dt
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Query, Request
+from fastapi import APIRouter, HTTPException, Query, Request
 
+from polarsvc.api import visibility
 from polarsvc.api.deps import Admin, Reader, ReadSession
 from polarsvc.api.responses import json_response, page_response
 from polarsvc.api.schemas import ERROR_RESPONSES, AfterQuery, TokenIn
-from polarsvc.store import audit as audit_store
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
-from polarsvc.store.models import ApiToken, AuditEvent
+from polarsvc.store.models import ApiToken
 from polarsvc.store.paging import decode_cursor, encode_cursor
 
 router = APIRouter(tags=["access and audit"], responses=ERROR_RESPONSES)
@@ -28,23 +28,6 @@ def token_summary(token: ApiToken) -> dict[str, Any]:
         "created_by": token.created_by,
         "expires_at": token.expires_at.isoformat() if token.expires_at else None,
         "revoked_at": token.revoked_at.isoformat() if token.revoked_at else None,
-    }
-
-
-def event_summary(event: AuditEvent) -> dict[str, Any]:
-    """An audit event's public form."""
-    import json
-
-    return {
-        "id": event.id,
-        "occurred_at": event.occurred_at.isoformat(),
-        "actor": {"name": event.actor_name, "role": event.actor_role},
-        "action": event.action,
-        "object": {"kind": event.object_kind, "key": event.object_key},
-        "before_hash": event.before_hash,
-        "after_hash": event.after_hash,
-        "remote_addr": event.remote_addr,
-        "detail": json.loads(event.detail) if event.detail else {},
     }
 
 
@@ -74,31 +57,36 @@ def revoke_token(name: str, request: Request, principal: Admin):
         return json_response(token_summary(token))
 
 
-@router.get("/audit", summary="The audit trail, oldest first (filter by time, object, actor)")
+@router.get(
+    "/audit",
+    summary="The audit trail, oldest first (filter by time, object, actor); token names and "
+    "client addresses are shown to admins only",
+)
 def audit_trail(
     request: Request,
     session: ReadSession,
-    _: Reader,
+    principal: Reader,
     since: dt.datetime | None = None,
     until: dt.datetime | None = None,
     object: Annotated[str | None, Query(max_length=200)] = None,
-    actor: Annotated[str | None, Query(max_length=200)] = None,
+    actor: Annotated[str | None, Query(max_length=200, description="token name (admins)")] = None,
     limit: Annotated[int, Query(ge=1, le=10000)] = 1000,
     after: AfterQuery = None,
 ):
-    """At most ``limit`` events per page; follow the ``Link: <...>; rel="next"`` header
+    """Each event names its actor's role; the actor's token name and the client address are
+    shown to admins only (None for others), and token-management events to admins only.
+    At most ``limit`` events per page; follow the ``Link: <...>; rel="next"`` header
     (present while a page is full) for the following events."""
     for name, value in (("since", since), ("until", until)):
         if value is not None and value.tzinfo is None:
-            from fastapi import HTTPException
-
             raise HTTPException(422, detail=f"{name} must carry a time zone (e.g. ...Z)")
     after_id = decode_cursor(after, (int,))[0] if after is not None else None
-    events = audit_store.query_events(
-        session, since=since, until=until, object_key=object, actor=actor, limit=limit,
-        after_id=after_id,
-    )
-    cursor = encode_cursor([events[-1].id]) if len(events) == limit else None
-    return page_response(
-        request, [event_summary(e) for e in events], next_cursor=cursor, total=None
-    )
+    try:
+        events = visibility.audit_trail(
+            session, principal, since=since, until=until, object_key=object, actor=actor,
+            limit=limit, after_id=after_id,
+        )
+    except visibility.ActorFilterRefused as exc:
+        raise HTTPException(403, detail=str(exc)) from None
+    cursor = encode_cursor([events[-1]["id"]]) if len(events) == limit else None
+    return page_response(request, events, next_cursor=cursor, total=None)

@@ -7,7 +7,7 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Query, Request
 
 from polarsvc import pipeline, recipes
-from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, page_response
 from polarsvc.api.routers.polars import (
     ApprovedOnlyQuery,
@@ -25,7 +25,8 @@ from polarsvc.api.schemas import (
     BladeIn,
     LimitQuery,
 )
-from polarsvc.api.served import served_response
+from polarsvc.api.served import PACKAGE_FORMAT, package_response, served_response
+from polarsvc.api.visibility import shown_name
 from polarsvc.store import blades as blade_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import BladeDefinition
@@ -33,8 +34,10 @@ from polarsvc.store.models import BladeDefinition
 router = APIRouter(tags=["blades and blends"], responses=ERROR_RESPONSES)
 
 
-def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> dict[str, Any]:
-    """The public form of a blade revision."""
+def blade_summary(
+    blade: BladeDefinition, principal: Principal, *, with_definition: bool = False
+) -> dict[str, Any]:
+    """The public form of a blade revision (``created_by`` for admins only)."""
     definition = blade_store.blade_definition(blade)
     summary = {
         "name": blade.name,
@@ -43,7 +46,7 @@ def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> d
         "rotor_radius_m": definition.get("rotor_radius_m"),
         "stations": len(definition.get("stations", [])),
         "created_at": blade.created_at.isoformat(),
-        "created_by": blade.created_by,
+        "created_by": shown_name(principal, blade.created_by),
     }
     if with_definition:
         summary["definition"] = definition
@@ -52,15 +55,15 @@ def blade_summary(blade: BladeDefinition, *, with_definition: bool = False) -> d
 
 @router.get("/blades", summary="List blade definitions (every revision; one page)")
 def list_blades(
-    request: Request, session: ReadSession, _: Reader,
+    request: Request, session: ReadSession, principal: Reader,
     limit: LimitQuery = PAGE_SIZE, after: AfterQuery = None,
 ):
     """Blade revisions by name, then storage order. Follow the ``Link`` header for the next
     page."""
     page = blade_store.page_blades(session, after=after, limit=limit)
     return page_response(
-        request, [blade_summary(b) for b in page.items], next_cursor=page.next_cursor,
-        total=page.total,
+        request, [blade_summary(b, principal) for b in page.items],
+        next_cursor=page.next_cursor, total=page.total,
     )
 
 
@@ -75,13 +78,15 @@ def add_blade(blade: BladeIn, request: Request, principal: Curator):
             session, name=blade.name, definition=definition, actor=principal.actor()
         )
         return json_response(
-            {**blade_summary(row), "created": created}, status_code=201 if created else 200
+            {**blade_summary(row, principal), "created": created},
+            status_code=201 if created else 200,
         )
 
 
 @router.get("/blades/{key}", summary="A blade definition: latest revision by name, or by hash")
-def get_blade(key: str, session: ReadSession, _: Reader):
-    return json_response(blade_summary(pipeline.find_blade(session, key), with_definition=True))
+def get_blade(key: str, session: ReadSession, principal: Reader):
+    blade = pipeline.find_blade(session, key)
+    return json_response(blade_summary(blade, principal, with_definition=True))
 
 
 @router.get(
@@ -96,7 +101,10 @@ def get_blade(key: str, session: ReadSession, _: Reader):
         "(Kirchhoff separation function) and cl_fs (fully separated lift), have one row per "
         "station; per-station alpha0, lift slope and stall onset are in "
         "reports.stations[i].dynamic_stall. The CSV form is long (station radius, alpha_deg, "
-        "coefficients)."
+        "coefficients). Every form states the operating point and, per station, radius, "
+        "chord, twist, t/c and Reynolds number (`describes`; CSV comment lines). "
+        "`format=zip` answers with the station package: one CSV per station plus "
+        "manifest.json (layout in the README)."
     ),
 )
 def blade_tables(
@@ -114,7 +122,7 @@ def blade_tables(
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
-    fmt = choose_format(request, format)
+    fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
     options = {
         "surface": surface,
         "thickness_method": thickness_method,
@@ -129,6 +137,8 @@ def blade_tables(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
     )
+    if fmt == PACKAGE_FORMAT:
+        return package_response(request, served)
     return served_response(request, served, fmt)
 
 

@@ -128,7 +128,7 @@ def list_airfoils(
 
 
 @router.get("/airfoils/{name}", summary="One airfoil with its revisions")
-def get_airfoil(name: str, request: Request, session: ReadSession, _: Reader):
+def get_airfoil(name: str, request: Request, session: ReadSession, principal: Reader):
     airfoil = airfoil_store.get_airfoil(session, name)
     from polarsvc.api.routers.polars import revision_summary
 
@@ -137,6 +137,6 @@ def get_airfoil(name: str, request: Request, session: ReadSession, _: Reader):
         {
             **airfoil_summary(airfoil),
             "coordinates": airfoil_store.airfoil_coordinates(airfoil),
-            "revisions": [revision_summary(r) for r in revisions],
+            "revisions": [revision_summary(r, principal) for r in revisions],
         }
     )

@@ -8,6 +8,7 @@ from fastapi import APIRouter, Query, Request
 from fastapi.responses import PlainTextResponse
 
 from polarsvc import lineage, pipeline
+from polarsvc.api import visibility
 from polarsvc.api.deps import Reader, ReadSession
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import FormatQuery
@@ -35,10 +36,13 @@ def get_derived(key: str, request: Request, _: Reader, format: FormatQuery = Non
 def get_lineage(
     key: str,
     session: ReadSession,
-    _: Reader,
+    principal: Reader,
     format: Annotated[str, Query(pattern="^(json|text)$")] = "json",
 ):
-    tree = lineage.lineage_of(session, pipeline.find_derived_all(session, key))
+    """Uploaders and reviewers are named to admins only (others see the reviewer's role)."""
+    tree = visibility.lineage_for(
+        principal, lineage.lineage_of(session, pipeline.find_derived_all(session, key))
+    )
     if format == "text":
         return PlainTextResponse(lineage.lineage_text(tree))
     return json_response(tree)

@@ -5,9 +5,10 @@ from __future__ import annotations
 from typing import Annotated, Any
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from starlette.concurrency import run_in_threadpool
 
 from polarsvc import pipeline, recipes
-from polarsvc.api.deps import Curator, Reader, ReadSession, SettingsDep
+from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
 from polarsvc.api.responses import choose_format, json_response, page_response, table_response
 from polarsvc.api.schemas import (
     ERROR_RESPONSES,
@@ -18,7 +19,8 @@ from polarsvc.api.schemas import (
 )
 from polarsvc.api.served import served_response
 from polarsvc.api.settings import Settings
-from polarsvc.ingest import store_file
+from polarsvc.api.visibility import shown_name
+from polarsvc.ingest import store_upload
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import PolarRevision
@@ -42,9 +44,12 @@ ApprovedOnlyQuery = Annotated[
 ]
 
 
-def revision_summary(revision: PolarRevision | polar_store.RevisionSummary) -> dict[str, Any]:
+def revision_summary(
+    revision: PolarRevision | polar_store.RevisionSummary, principal: Principal
+) -> dict[str, Any]:
     """The public form of a revision without its table (from the ORM row, or from a
-    listing's :class:`~polarsvc.store.polars.RevisionSummary`)."""
+    listing's :class:`~polarsvc.store.polars.RevisionSummary`; ``created_by`` for admins
+    only)."""
     return {
         "content_hash": revision.content_hash,
         "airfoil": revision.airfoil.name,
@@ -68,7 +73,7 @@ def revision_summary(revision: PolarRevision | polar_store.RevisionSummary) -> d
             "replaced_by": revision.replaced_by.content_hash if revision.replaced_by else None,
         },
         "created_at": revision.created_at.isoformat(),
-        "created_by": revision.created_by,
+        "created_by": shown_name(principal, revision.created_by),
     }
 
 
@@ -81,7 +86,7 @@ def approved_only_setting(settings: Settings, explicit: bool | None) -> bool:
 def list_polars(
     request: Request,
     session: ReadSession,
-    _: Reader,
+    principal: Reader,
     airfoil: Annotated[str | None, Query(max_length=200)] = None,
     family: Annotated[str | None, Query(max_length=200)] = None,
     surface: Annotated[str | None, Query(max_length=32)] = None,
@@ -99,8 +104,8 @@ def list_polars(
         review_state=review_state, source_kind=source_kind, after=after, limit=limit,
     )
     return page_response(
-        request, [revision_summary(r) for r in page.items], next_cursor=page.next_cursor,
-        total=page.total,
+        request, [revision_summary(r, principal) for r in page.items],
+        next_cursor=page.next_cursor, total=page.total,
     )
 
 
@@ -170,12 +175,13 @@ async def upload_polar(
         }.items()
         if value is not None
     }
-    with session_scope(request.app.state.session_factory, write=True) as session:
-        outcomes = store_file(
-            session, bytes(body), actor=principal.actor(), filename=filename,
-            content_type=content_type or None, defaults=defaults,
-            max_bytes=settings.max_upload_bytes, supersedes=supersedes,
-        )
+    # parsing, hashing and the database work run in a worker thread: the event loop stays
+    # free for other requests while a large file is stored
+    outcomes = await run_in_threadpool(
+        store_upload, request.app.state.session_factory, bytes(body),
+        actor=principal.actor(), filename=filename, content_type=content_type or None,
+        defaults=defaults, max_bytes=settings.max_upload_bytes, supersedes=supersedes,
+    )
     created = any(o.created for o in outcomes)
     return json_response(
         {"stored": [o.as_dict() for o in outcomes]}, status_code=201 if created else 200
@@ -183,13 +189,13 @@ async def upload_polar(
 
 
 @router.get("/polars/{content_hash}", summary="A revision: metadata, provenance and table")
-def get_polar(content_hash: str, session: ReadSession, _: Reader):
+def get_polar(content_hash: str, session: ReadSession, principal: Reader):
     revision = polar_store.get_revision(session, content_hash)
     polar = polar_store.load_polar(revision)
     table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
     if polar.cm is not None:
         table["cm"] = polar.cm
-    return json_response({**revision_summary(revision), "table": table})
+    return json_response({**revision_summary(revision, principal), "table": table})
 
 
 @router.get("/polars/{content_hash}/table", summary="A revision's table as stored")
@@ -365,7 +371,7 @@ def review_polar(content_hash: str, change: ReviewChange, request: Request, prin
             session, content_hash=content_hash, state=change.state, reason=change.reason,
             replaced_by_hash=change.replaced_by, actor=principal.actor(),
         )
-        return json_response(revision_summary(revision))
+        return json_response(revision_summary(revision, principal))
 
 
 @router.get(
