@@ -217,7 +217,7 @@ def _prepared_size(family: Any) -> int:
     return int(sum(getattr(v, "nbytes", 0) for v in vars(family).values())) + 4096
 
 
-RECENT_TABLES_MAX_BYTES = 96 * 2**20
+RECENT_TABLES_MAX_BYTES = 64 * 2**20
 RECENT_TABLES: LruCache[ServedTable] = LruCache(
     max_entries=256, max_size=RECENT_TABLES_MAX_BYTES, size_of=_served_size
 )

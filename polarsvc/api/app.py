@@ -16,6 +16,7 @@ from polarsvc.api.deps import refuse_control_characters
 from polarsvc.api.responses import FormatChoiceError, json_response
 from polarsvc.api.settings import Settings
 from polarsvc.formats import FormatError
+from polarsvc.memory import limit_allocator_retention
 from polarsvc.names import TEXT_PATTERN, InvalidText
 from polarsvc.store import errors as store_errors
 from polarsvc.store.db import is_lock_timeout, make_engine, upgrade_database
@@ -51,6 +52,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        limit_allocator_retention()
         engine = make_engine(settings.database_url)
         if settings.apply_migrations:
             upgrade_database(engine)
