@@ -4,11 +4,12 @@ Exit codes: 0 success, 1 some input refused (named on standard error), 2 usage e
 3 the server cannot listen where asked (port in use, unknown host), 4 the database's schema
 revision is unknown to this software (:data:`EXIT_SCHEMA_MISMATCH`).
 
-Local commands (import, export, db, token, review, audit, lineage, verify, bundle) work on
-the database named by ``--database-url`` or ``POLARSVC_DATABASE_URL``; else on the database
-the last ``polarsvc serve`` in this folder served (recorded in
-``./polarsvc-data/serving.json``, see :mod:`polarsvc.serving`), so that the tools and the
-demo server share one database; else on the SQLite file ``./polarsvc-data/polarsvc.db``.
+Local commands (import, export, db, token, review, audit, lineage, verify, bundle,
+performance, compare) work on the database named by ``--database-url`` or
+``POLARSVC_DATABASE_URL``; else on the database the last ``polarsvc serve`` in this folder
+served (recorded in ``./polarsvc-data/serving.json``, see :mod:`polarsvc.serving`), so that
+the tools and the demo server share one database; else on the SQLite file
+``./polarsvc-data/polarsvc.db``.
 ``fetch`` talks to a running server (``--server``, ``POLARSVC_SERVER``, else the recorded
 address, else ``http://127.0.0.1:8000``).
 """
@@ -380,6 +381,8 @@ def cmd_fetch(args: argparse.Namespace) -> int:
         params[key] = value
     if args.what in ("blade", "package"):
         path = f"/blades/{args.key}/tables"
+    elif args.what == "performance":
+        path = f"/blades/{args.key}/performance"
     elif args.what == "blend":
         path = f"/families/{args.key}/blend"
         params.update(thickness=args.thickness, reynolds=args.reynolds)
@@ -492,6 +495,133 @@ def cmd_verify(args: argparse.Namespace) -> int:
     return 0 if report["matches"] else 1
 
 
+# -- rotor performance (local database) --------------------------------------------------------
+SPEC_HELP = (
+    "BLADE[:key=value,...] -- a blade name or revision hash, then blade-set and rotor "
+    "settings, e.g. skerry-48:rotation_model=none,approved_only=true,tip_loss=false,"
+    "rated_power_w=2.5e6"
+)
+
+
+class SpecSyntaxError(ValueError):
+    """A comparison side is not written as ``BLADE[:key=value,...]``."""
+
+
+def _spec(text: str) -> Any:
+    """A comparison side from ``BLADE[:key=value,...]`` (fields of the compare request)."""
+    from polarsvc.api.schemas import BladeSetSpec, RotorOptionsIn
+
+    blade, _, rest = text.partition(":")
+    fields: dict[str, Any] = {"blade": blade}
+    rotor: dict[str, Any] = {}
+    turbine: dict[str, Any] = {}
+    for item in filter(None, rest.split(",")):
+        key, sep, value = item.partition("=")
+        if not sep:
+            raise SpecSyntaxError(f"{item!r}: expected key=value")
+        parsed: Any = value
+        if value.lower() in ("true", "false"):
+            parsed = value.lower() == "true"
+        else:
+            try:
+                parsed = float(value)
+            except ValueError:
+                parsed = value
+        if key in RotorOptionsIn.model_fields:
+            rotor[key] = parsed
+        elif key in BladeSetSpec.model_fields:
+            fields[key] = parsed
+        else:
+            turbine[key] = parsed
+    if turbine:
+        rotor["turbine"] = turbine
+    return BladeSetSpec.model_validate({**fields, "rotor": rotor}, strict=False)
+
+
+def _served_performance(factory: Any, spec: Any) -> Any:
+    from polarsvc import pipeline
+    from polarsvc.api.routers.rotor import spec_options
+
+    options, rotor_options = spec_options(spec)
+    return pipeline.rotor_performance(
+        factory, blade_key=spec.blade, options=options, rotor_options=rotor_options,
+        approved_only=bool(spec.approved_only),
+    )
+
+
+def _performance_text(served: Any) -> str:
+    arrays = served.columns
+    best_tsr, fine_pitch, cp_max = arrays["optimum"].tolist()
+    rated = float(arrays["rated_wind_speed_m_s"][0])
+    lines = [
+        f"rotor result {served.content_hash}",
+        f"  recipe {served.recipe_hash} on blade set {served.recipe['inputs']['blade_set']}",
+        f"  Cp max {cp_max:.4f} at tip speed ratio {best_tsr:.3f}, pitch {fine_pitch:.3f} deg",
+        "  rated wind speed " + (f"{rated:.3f} m/s" if rated == rated else "not reached"),
+        "  annual energy (8766 h):",
+    ]
+    for label, energy, capacity in zip(served.reports["distributions"],
+                                       arrays["annual_energy_wh"].tolist(),
+                                       arrays["capacity_factor"].tolist(), strict=True):
+        lines.append(f"    {label}: {energy / 1e6:.1f} MWh, capacity factor {capacity:.3f}")
+    lines.append("  CAUTION: " + served.meta()["rotor_caution"])
+    return "\n".join(lines) + "\n"
+
+
+def cmd_performance(args: argparse.Namespace) -> int:
+    try:
+        spec = _spec(args.spec)
+    except SpecSyntaxError as exc:
+        _stderr(f"spec: {exc}")
+        return 2
+    served = _served_performance(_factory(args), spec)
+    if args.json:
+        from polarsvc.api.responses import dumps
+
+        sys.stdout.buffer.write(dumps({**served.meta(), **served.columns}) + b"\n")
+    else:
+        sys.stdout.write(_performance_text(served))
+    return 0
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from polarsvc import pipeline
+
+    try:
+        specs = [_spec(args.a), _spec(args.b)]
+    except SpecSyntaxError as exc:
+        _stderr(f"spec: {exc}")
+        return 2
+    factory = _factory(args)
+    a, b = (_served_performance(factory, spec) for spec in specs)
+    document = pipeline.compare_performance(a, b)
+    if args.json:
+        from polarsvc.api.responses import dumps
+
+        sys.stdout.buffer.write(dumps(document) + b"\n")
+        return 0
+    lines = [f"b minus a: a = {a.content_hash[:16]}, b = {b.content_hash[:16]}"]
+    for row in document["annual_energy"]:
+        percent = row["delta_percent"]
+        lines.append(f"  {row['distribution']}: {row['delta_mwh']:+.1f} MWh"
+                     + ("" if percent is None else f" ({percent:+.2f} %)"))
+    rated = document["at_rated_wind_speed"]
+    if rated:
+        for key in ("wind_speed_m_s", "thrust_n", "root_flap_moment_n_m",
+                    "root_edge_moment_n_m"):
+            lines.append(f"  at rated: {key} {rated[key]['a']:.6g} -> {rated[key]['b']:.6g}")
+    differences = document["differences"]
+    for change in differences["parameters"]:
+        lines.append(f"  parameter {change['parameter']}: {change['a']!r} -> {change['b']!r}")
+    for side in ("a", "b"):
+        for revision in differences[f"revisions_only_in_{side}"]:
+            lines.append(f"  only in {side}: {revision['revision'][:16]} {revision['airfoil']} "
+                         f"Re={revision['reynolds']:g} [{revision['review_state']}]")
+    lines.append("  CAUTION: " + document["rotor_caution"])
+    sys.stdout.write("\n".join(lines) + "\n")
+    return 0
+
+
 def cmd_bundle(args: argparse.Namespace) -> int:
     from polarsvc import bundle
 
@@ -566,10 +696,10 @@ def build_parser() -> argparse.ArgumentParser:
     exporter.set_defaults(handler=cmd_export)
 
     fetch = commands.add_parser("fetch", help="fetch a derived table or blade set from a server")
-    fetch.add_argument("what", choices=("blade", "package", "blend", "extended", "augmented",
-                                        "resampled", "derived"),
+    fetch.add_argument("what", choices=("blade", "package", "performance", "blend", "extended",
+                                        "augmented", "resampled", "derived"),
                        help="package: a blade's station package (zip: one table per station "
-                       "plus manifest.json)")
+                       "plus manifest.json); performance: a blade set's rotor result")
     fetch.add_argument("key", help="blade name, family name, revision hash or derived hash")
     fetch.add_argument("--server", default=os.environ.get("POLARSVC_SERVER"),
                        help="server address (default: POLARSVC_SERVER, else the address "
@@ -584,6 +714,20 @@ def build_parser() -> argparse.ArgumentParser:
                        help="any other query parameter (repeatable)")
     fetch.add_argument("-o", "--output", help="file to write (default: standard output)")
     fetch.set_defaults(handler=cmd_fetch)
+
+    perf = commands.add_parser(
+        "performance", help="rotor performance of a blade set (steady BEM, power curve, energy)"
+    )
+    perf.add_argument("spec", help=SPEC_HELP)
+    perf.add_argument("--json", action="store_true", help="the whole result as JSON")
+    perf.set_defaults(handler=cmd_performance)
+
+    compare = commands.add_parser("compare", help="compare the rotor performance of two "
+                                  "blade sets (b minus a)")
+    compare.add_argument("a", help=SPEC_HELP)
+    compare.add_argument("b", help=SPEC_HELP)
+    compare.add_argument("--json", action="store_true", help="the comparison as JSON")
+    compare.set_defaults(handler=cmd_compare)
 
     token = commands.add_parser("token", help="create, revoke or list API tokens")
     token_commands = token.add_subparsers(dest="action", required=True)

@@ -35,6 +35,8 @@ from polarsvc.formats.binary import (
     ARROW_MEDIA_TYPE,
     NPZ_MEDIA_TYPE,
     BinaryTable,
+    decode_arrays_arrow,
+    decode_arrays_npz,
     decode_arrow,
     decode_npz,
 )
@@ -47,6 +49,7 @@ __all__ = [
     "NotFoundError",
     "PolarClient",
     "RequestRefused",
+    "RotorPerformance",
     "ServiceError",
     "StationPackage",
 ]
@@ -123,6 +126,39 @@ class DerivedTable:
                          assume_degrees=True, **section_conditions(self.meta, station))
         return Polar(self.alpha_deg, self.cl, self.cd, self.cm, assume_degrees=True,
                      **section_conditions(self.meta))
+
+
+@dataclass(frozen=True)
+class RotorPerformance:
+    """A rotor result from the service: named arrays (``arrays``; names and units in
+    ``meta["reports"]["arrays"]``) and the metadata (recipe, hashes, assumptions,
+    cautions). Items are the arrays: ``result["power_w"]``."""
+
+    arrays: dict[str, np.ndarray]
+    meta: dict[str, Any] = field(default_factory=dict)
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        return self.arrays[name]
+
+    @property
+    def content_hash(self) -> str:
+        return str(self.meta.get("content_hash"))
+
+    @property
+    def recipe_hash(self) -> str | None:
+        return self.meta.get("recipe_hash")
+
+    @property
+    def rated_wind_speed_m_s(self) -> float | None:
+        """Rated wind speed [m/s], or None when rated power is never reached."""
+        value = float(self.arrays["rated_wind_speed_m_s"][0])
+        return None if np.isnan(value) else value
+
+    @property
+    def annual_energy(self) -> dict[str, float]:
+        """Annual energy [Wh] by wind distribution label."""
+        labels = self.meta["reports"]["distributions"]
+        return dict(zip(labels, self.arrays["annual_energy_wh"].tolist(), strict=True))
 
 
 def _raise_for(response: httpx.Response) -> None:
@@ -283,6 +319,37 @@ class PolarClient:
     def blade_set(self, blade: str, **params: Any) -> DerivedTable:
         """The station tables of a stored blade definition (arrays are stations x angles)."""
         return self._get_table(f"/blades/{blade}/tables", **params)
+
+    def performance(self, blade: str, **params: Any) -> RotorPerformance:
+        """Rotor performance of a blade set (params: the blade-set parameters of
+        :meth:`blade_set` and the rotor parameters of ``GET /blades/{key}/performance``,
+        e.g. ``rotation_model="none"``, ``rated_power_w=2.5e6``, ``weibull_k=[2.0]``,
+        ``weibull_a_m_s=[9.0]``)."""
+        fmt = "bin" if ARROW_AVAILABLE else "npz"
+        response = self._http.get(
+            f"/blades/{blade}/performance", params=_clean({**params, "format": fmt}),
+        )
+        _raise_for(response)
+        media_type = response.headers.get("content-type", "")
+        if media_type.startswith(ARROW_MEDIA_TYPE):
+            arrays, meta = decode_arrays_arrow(response.content)
+        elif media_type.startswith(NPZ_MEDIA_TYPE):
+            arrays, meta = decode_arrays_npz(response.content)
+        else:
+            raise ClientError(f"unexpected result media type {media_type!r}")
+        return RotorPerformance(arrays=dict(arrays), meta=meta)
+
+    def compare_performance(self, a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:
+        """Compare two blade sets (b minus a); each a mapping like ``{"blade": "skerry-48",
+        "rotation_model": "none", "rotor": {"tip_loss": False}}`` (fields of the request
+        body of ``POST /performance/compare``). Curves come back as numpy arrays."""
+        response = self._http.post("/performance/compare", json={"a": a, "b": b})
+        _raise_for(response)
+        document = response.json()
+        for block in ("cp_lambda", "power_curve"):
+            document[block] = {k: np.asarray(v, dtype=np.float64)
+                               for k, v in document[block].items()}
+        return document
 
     def station_package(
         self, blade: str, *, path: str | Path | None = None, **params: Any

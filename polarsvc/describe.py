@@ -95,6 +95,18 @@ def table_description(
             "settings": _settings(params, ("surface", "operating_point", "air")),
             "stations": station_rows(reports),
         }
+    if kind == "rotor":
+        rotor = params.get("rotor") or {}
+        return {
+            "blade": dict(blade) if blade else None,
+            "family": family,
+            "blade_set_recipe_hash": (recipe.get("inputs") or {}).get("blade_set"),
+            "turbine": rotor.get("turbine"),
+            "model": {key: rotor.get(key) for key in
+                      ("tip_loss", "hub_loss", "tangential_induction", "high_thrust")},
+            "wind_distributions": reports.get("distributions"),
+            "settings": _settings(params, ()),
+        }
     conditions = dict(reports.get("conditions") or {})
     return {
         "airfoil": airfoil,

@@ -53,6 +53,10 @@ Table content hash (:func:`table_content_hash`)
     ``sha256(canonical_json({"format": "polarsvc.table.v1", "alpha_deg": <array digest>,
     "columns": [<array digest>, ...]}))``, columns in the order given.
 
+Result content hash (:func:`result_content_hash`)
+    ``sha256(canonical_json({"format": "polarsvc.result.v1", "arrays": [[<name>, <array
+    digest>], ...]}))``, named arrays of any shapes in the order given (rotor results).
+
 Blade content hash (:func:`blade_content_hash`)
     ``sha256(canonical_json({"format": "polarsvc.blade.v1", "name": <name>,
     "definition": <definition>}))``.
@@ -88,6 +92,7 @@ __all__ = [
     "polar_content_hash",
     "polar_hash_document",
     "recipe_hash",
+    "result_content_hash",
     "table_content_hash",
 ]
 
@@ -346,6 +351,27 @@ def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
     """Hash of a derived table: the angle column and the coefficient arrays, in order
     (see :func:`canonical_table`)."""
     return canonical_table(alpha_deg, *columns)[0]
+
+
+def canonical_result(arrays: Mapping[str, ArrayLike]) -> tuple[str, list[bytes]]:
+    """The content hash of a result made of named arrays of any shapes (module docstring)
+    and the canonical bytes of each array, in order."""
+    if not arrays:
+        raise ValueError("a result needs at least one array")
+    parts = []
+    named = []
+    for name, values in arrays.items():
+        if not isinstance(name, str) or not name:
+            raise ValueError(f"array names must be non-empty strings, got {name!r}")
+        array = np.asarray(values, dtype=np.float64)
+        parts.append(canonical_array_bytes(array))
+        named.append([name, _digest_of(array.shape, parts[-1])])
+    return _sha256_json({"format": "polarsvc.result.v1", "arrays": named}), parts
+
+
+def result_content_hash(arrays: Mapping[str, ArrayLike]) -> str:
+    """Hash of a result of named arrays (see :func:`canonical_result`)."""
+    return canonical_result(arrays)[0]
 
 
 def blade_content_hash(*, name: str, definition: Mapping[str, Any]) -> str:

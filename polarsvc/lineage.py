@@ -33,6 +33,10 @@ STEP_NAMES = {
         "extend_full_range (each member)", "resample (common grid)", "station_reynolds",
         "interpolate_reynolds (log10 Re)", "interpolate_thickness", "augment_rotation",
     ],
+    "rotor": [
+        "blade set (station tables)", "solve (steady BEM, Ning 2014)", "cp_surface",
+        "power_curve", "annual_energy",
+    ],
 }
 
 
@@ -108,6 +112,14 @@ def derived_node(session: Session, row: DerivedTable) -> dict[str, Any]:
         "params": recipe.get("params"),
         "inputs": inputs,
     }
+    blade_set_key = recipe["inputs"].get("blade_set")
+    if blade_set_key is not None:
+        used = derived_store.get_derived(session, recipe_hash=blade_set_key)
+        node["blade_set"] = (
+            derived_node(session, used) if used is not None
+            else {"node": "derived", "kind": "blade-set", "recipe_hash": blade_set_key,
+                  "missing": True}
+        )
     if row.blade is not None:
         node["blade"] = {
             "node": "blade",
@@ -168,6 +180,12 @@ def _derived_text(tree: dict[str, Any]) -> str:
             f"  blade {blade['name']} {blade['content_hash']} "
             f"(stored by {_who(blade['uploaded_by'])} at {blade['uploaded_at']})"
         )
+    if "blade_set" in tree:
+        used = tree["blade_set"]
+        state = "  NOT CACHED (recomputed from its recipe)" if used.get("missing") else (
+            f" content {used['content_hash']}"
+        )
+        lines.append(f"  blade set: recipe {used['recipe_hash']}{state}")
     lines.append(f"  inputs ({len(tree['inputs'])} stored revisions):")
     for leaf in tree["inputs"]:
         if leaf.get("missing"):

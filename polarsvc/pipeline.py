@@ -18,10 +18,10 @@ import orjson
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session, defer, sessionmaker
 
-from polarsvc import describe, recipes
+from polarsvc import describe, performance, recipes
 from polarsvc.aero.errors import InsufficientDataError
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
-from polarsvc.hashing import table_content_hash
+from polarsvc.hashing import result_content_hash, table_content_hash
 from polarsvc.lru import LruCache
 from polarsvc.store import blades as blade_store
 from polarsvc.store import derived as derived_store
@@ -86,7 +86,7 @@ class ServedTable:
     recipe: dict[str, Any]
     recipe_hash: str
     content_hash: str
-    alpha_deg: np.ndarray
+    alpha_deg: np.ndarray | None
     columns: dict[str, np.ndarray]
     reports: dict[str, Any]
     inputs: tuple[InputSummary, ...]
@@ -116,6 +116,15 @@ class ServedTable:
             },
             "caution": CAUTION,
         }
+        if self.kind == "rotor":
+            meta["conventions"] = {
+                "units": "in the array names (_m_s, _rpm, _w, _n, _n_m, _n_per_m, _deg, _wh)",
+                "forces": "per unit length of blade, normal to and in the rotor plane",
+                "moments": "one blade, about the hub radius, rotor-plane axes",
+                "station_arrays": "one row per wind speed of the power curve",
+            }
+            meta["rotor_caution"] = performance.ROTOR_CAUTION
+            meta["blade_set_recipe_hash"] = self.recipe["inputs"].get("blade_set")
         if self.blade is not None:
             meta["blade"] = self.blade
         meta.update(self.extra)
@@ -259,10 +268,19 @@ def cached_table(
     return served
 
 
+def result_hash(result: recipes.DerivedResult) -> str:
+    """Content hash of a computed table or result (a rotor result has no angle column)."""
+    if result.alpha_deg is None:
+        return result_content_hash(result.columns)
+    return table_content_hash(result.alpha_deg, *result.columns.values())
+
+
 def compute_and_store(
-    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs
+    factory: sessionmaker[Session], recipe: dict[str, Any], inputs: ResolvedInputs,
+    load_derived: Callable[[str], recipes.DerivedResult] | None = None,
 ) -> ServedTable:
-    """Compute the table of ``recipe`` with the numeric core and cache it durably."""
+    """Compute the table of ``recipe`` with the numeric core and cache it durably
+    (``load_derived`` hands over derived inputs already at hand, by recipe hash)."""
     key = compute_recipe_hash(recipe)
     memo_key = (_database_key(factory), key)
     loaded: dict[str, Any] = {}
@@ -279,6 +297,7 @@ def compute_and_store(
         load_revision=load_revision,
         load_blade=(lambda _hash: definition) if definition is not None else None,
         family_cache=PREPARED_FAMILIES.get,
+        load_derived=load_derived,
     )
     # the reports are served as computed (orjson encodes numpy values in responses) and
     # stored as JSON text once, by put_derived: no encode-decode round trip on a miss
@@ -418,6 +437,7 @@ def _resolve(
     factory: sessionmaker[Session],
     request_key: tuple[Any, ...],
     resolve: Callable[[Session], tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]],
+    load_derived: Callable[[str], recipes.DerivedResult] | None = None,
 ) -> ServedTable:
     """Resolve a request to its recipe and inputs (or reuse the resolution made since the
     last write), then serve the table."""
@@ -431,7 +451,7 @@ def _resolve(
         recipe, inputs, extra = resolved
         served = cached_table(session, factory, recipe, inputs)
     if served is None:
-        served = compute_and_store(factory, recipe, inputs)
+        served = compute_and_store(factory, recipe, inputs, load_derived)
     return dataclasses.replace(served, extra={**served.extra, **extra}) if extra else served
 
 
@@ -515,6 +535,79 @@ def blade_set(
     return _resolve(
         factory, _request_key("blade-set", blade_key, dict(options), approved_only), resolve
     )
+
+
+def rotor_performance(
+    factory: sessionmaker[Session],
+    *,
+    blade_key: str,
+    options: Mapping[str, Any],
+    rotor_options: Mapping[str, Any],
+    approved_only: bool,
+) -> ServedTable:
+    """Rotor performance of a blade set: the blade set is served first (from the cache, or
+    computed and stored), then the rotor result on it (``rotor_options`` are the keywords of
+    :func:`polarsvc.performance.rotor_params`), itself cached under its recipe hash."""
+    tables = blade_set(factory, blade_key=blade_key, options=options,
+                       approved_only=approved_only)
+    blade_hash = tables.recipe["inputs"]["blade"]
+
+    def resolve(session: Session):
+        blade = blade_store.get_blade(session, blade_hash)
+        definition = blade_store.blade_definition(blade)
+        params = performance.rotor_params(definition, **rotor_options)
+        hashes = tables.recipe["inputs"]["revisions"]
+        rows = session.scalars(
+            select(PolarRevision)
+            .where(PolarRevision.content_hash.in_(hashes))
+            .options(*(defer(getattr(PolarRevision, c)) for c in TABLE_COLUMNS))
+        ).all()
+        by_hash = {r.content_hash: r for r in rows}
+        inputs = resolve_inputs([by_hash[h] for h in hashes], blade)
+        recipe = recipes.rotor_recipe(tables.recipe, params)
+        return recipe, inputs, {"family": definition["family"]}
+
+    def load_derived(key: str) -> recipes.DerivedResult:
+        if key != tables.recipe_hash:
+            raise NotFound("derived table", key)
+        return recipes.DerivedResult(tables.alpha_deg, tables.columns, tables.reports)
+
+    return _resolve(
+        factory,
+        _request_key("rotor", tables.recipe_hash, dict(rotor_options)),
+        resolve,
+        load_derived,
+    )
+
+
+def compare_performance(a: ServedTable, b: ServedTable) -> dict[str, Any]:
+    """Differences b - a of two served rotor results and of their recipes and inputs
+    (:func:`polarsvc.performance.compare_results`,
+    :func:`polarsvc.performance.recipe_differences`), with both identities and the
+    cautions."""
+
+    def identity(served: ServedTable) -> dict[str, Any]:
+        return {
+            "content_hash": served.content_hash,
+            "recipe_hash": served.recipe_hash,
+            "blade_set_recipe_hash": served.recipe["inputs"].get("blade_set"),
+            "blade": served.blade,
+            "draws_on_deprecated": bool(served.deprecated_inputs),
+        }
+
+    return {
+        "a": identity(a),
+        "b": identity(b),
+        "differences": performance.recipe_differences(
+            a.recipe, b.recipe, [i.as_dict() for i in a.inputs],
+            [i.as_dict() for i in b.inputs],
+        ),
+        **performance.compare_results(
+            a.columns, b.columns, a.reports["distributions"], b.reports["distributions"]
+        ),
+        "caution": CAUTION,
+        "rotor_caution": performance.ROTOR_CAUTION,
+    }
 
 
 def find_blade(session: Session, key: str) -> BladeDefinition:
@@ -616,7 +709,7 @@ def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str
             load_revision=polars.__getitem__,
             load_blade=(lambda _h: definition) if definition is not None else None,
         )
-        recomputed_hash = table_content_hash(result.alpha_deg, *result.columns.values())
+        recomputed_hash = result_hash(result)
         if recomputed_hash != stored_hash:
             problems.append(
                 f"recomputed content hash {recomputed_hash} differs from stored {stored_hash}"

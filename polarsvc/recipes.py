@@ -11,6 +11,10 @@ A recipe is a plain JSON-able mapping::
       "params": {...}            # every parameter of every step, defaults written out
     }
 
+A ``rotor`` recipe adds ``inputs.blade_set``, the recipe hash of the blade set whose
+tables it uses, and holds ``params = {"blade_set": <that recipe's params>, "rotor":
+<rotor params>}`` (:func:`rotor_recipe`).
+
 Its hash (:func:`polarsvc.hashing.recipe_hash`) keys the derived-table cache, and the
 recipe stored beside a derived table is enough to recompute it (verification). Execution is
 pure: revisions and blade definitions are supplied by loader callables; nothing here touches
@@ -32,6 +36,9 @@ Steps per kind (each step is one function of :mod:`polarsvc.aero`):
   ratio unless the extension parameters give one (:func:`blade_set_params`); the result holds
   the dynamic-stall arrays ``f_separation`` and ``cl_fs`` beside cl, cd, cm
   (:func:`dynamic_stall_columns`) and their per-station values in the station reports.
+- ``rotor``: the blade set named by the recipe, then
+  :func:`polarsvc.performance.compute_performance` (steady BEM, Cp surface, power curve,
+  annual energy). Its result is a set of named arrays without an angle column.
 """
 
 from __future__ import annotations
@@ -43,7 +50,7 @@ from typing import Any
 
 import numpy as np
 
-from polarsvc import __version__, aero
+from polarsvc import __version__, aero, performance
 from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
 from polarsvc.aero.characteristics import LIFT_LINE_HALF_WINDOW_DEG
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
@@ -60,7 +67,7 @@ from polarsvc.aero.rotation import (
 from polarsvc.hashing import recipe_hash as compute_recipe_hash
 
 RECIPE_SCHEMA = "polarsvc-recipe/1"
-RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set")
+RECIPE_KINDS = ("resampled", "extended", "augmented", "blended", "blade-set", "rotor")
 
 DEFAULT_STEP_DEG = 0.5
 """Default angle step of served tables [deg] (721 angles over -180..180)."""
@@ -98,9 +105,11 @@ BROADSIDE_DRAG_DEFINITION = (
 @dataclass(frozen=True)
 class DerivedResult:
     """A computed table: angles [deg], named coefficient arrays (1-D, or stations x angles for
-    a blade set) and what the steps reported (join angles, clamps, station conditions)."""
+    a blade set) and what the steps reported (join angles, clamps, station conditions).
+    A rotor result has no angle column (``alpha_deg`` is None) and named arrays of any
+    shapes."""
 
-    alpha_deg: np.ndarray
+    alpha_deg: np.ndarray | None
     columns: dict[str, np.ndarray]
     reports: dict[str, Any] = field(default_factory=dict)
 
@@ -207,17 +216,54 @@ def make_recipe(
     revisions: Sequence[str],
     params: Mapping[str, Any],
     blade: str | None = None,
+    blade_set: str | None = None,
 ) -> dict[str, Any]:
-    """Assemble a recipe (see module docstring); ``revisions`` keep their given order."""
+    """Assemble a recipe (see module docstring); ``revisions`` keep their given order;
+    ``blade_set`` (rotor recipes) is the recipe hash of the blade set used."""
     if kind not in RECIPE_KINDS:
         raise UnknownMethodError("kind", kind, RECIPE_KINDS)
+    inputs: dict[str, Any] = {"revisions": list(revisions), "blade": blade}
+    if blade_set is not None:
+        inputs["blade_set"] = blade_set
     return {
         "schema": RECIPE_SCHEMA,
         "kind": kind,
         "software": software_stamp(),
-        "inputs": {"revisions": list(revisions), "blade": blade},
+        "inputs": inputs,
         "params": dict(params),
     }
+
+
+def rotor_recipe(blade_set_recipe: Mapping[str, Any], rotor: Mapping[str, Any]) -> dict[str, Any]:
+    """The rotor recipe on a blade-set recipe: same revisions and blade, the blade set's
+    recipe hash in ``inputs.blade_set``, both parameter sets."""
+    if blade_set_recipe.get("kind") != "blade-set":
+        raise ParameterError("blade_set_recipe", "must be a blade-set recipe")
+    return make_recipe(
+        "rotor",
+        revisions=blade_set_recipe["inputs"]["revisions"],
+        params={"blade_set": dict(blade_set_recipe["params"]), "rotor": dict(rotor)},
+        blade=blade_set_recipe["inputs"]["blade"],
+        blade_set=compute_recipe_hash(blade_set_recipe),
+    )
+
+
+def blade_set_recipe_of(recipe: Mapping[str, Any]) -> dict[str, Any]:
+    """The blade-set recipe a rotor recipe names, rebuilt from its inputs and parameters
+    (its hash is checked against ``inputs.blade_set``)."""
+    rebuilt = {
+        "schema": recipe["schema"],
+        "kind": "blade-set",
+        "software": dict(recipe["software"]),
+        "inputs": {"revisions": list(recipe["inputs"]["revisions"]),
+                   "blade": recipe["inputs"]["blade"]},
+        "params": dict(recipe["params"]["blade_set"]),
+    }
+    if compute_recipe_hash(rebuilt) != recipe["inputs"].get("blade_set"):
+        raise ParameterError(
+            "inputs", "the blade-set recipe hash does not match the recipe's blade-set inputs"
+        )
+    return rebuilt
 
 
 def _single_table(polar: aero.Polar, params: Mapping[str, Any], kind: str) -> aero.Polar:
@@ -486,6 +532,7 @@ def execute_recipe(
     load_revision: Callable[[str], aero.Polar],
     load_blade: Callable[[str], Mapping[str, Any]] | None = None,
     family_cache: FamilyCache | None = None,
+    load_derived: Callable[[str], DerivedResult] | None = None,
 ) -> DerivedResult:
     """Compute the table a recipe describes.
 
@@ -500,6 +547,9 @@ def execute_recipe(
     family_cache : callable, optional
         Reuses prepared families across recipes (see :func:`prepared_family`); without it
         everything is computed afresh (as verification does).
+    load_derived : callable, optional
+        Returns a derived table already at hand by recipe hash (the blade set of a rotor
+        recipe); without it the blade set is computed from its recipe.
     """
     if recipe.get("schema") != RECIPE_SCHEMA:
         raise ParameterError("schema", f"unknown recipe schema {recipe.get('schema')!r}")
@@ -512,6 +562,22 @@ def execute_recipe(
         if len(hashes) != 1:
             raise ParameterError("inputs", f"a {kind} table takes one revision, got {len(hashes)}")
         return _result_from_polar(_single_table(load_revision(hashes[0]), params, kind))
+    if kind == "rotor":
+        if load_blade is None:
+            raise ParameterError("load_blade", "a rotor recipe needs a blade loader")
+        tables_recipe = blade_set_recipe_of(recipe)
+        if load_derived is not None:
+            tables = load_derived(recipe["inputs"]["blade_set"])
+        else:
+            tables = execute_recipe(tables_recipe, load_revision=load_revision,
+                                    load_blade=load_blade, family_cache=family_cache)
+        blade = load_blade(recipe["inputs"]["blade"])
+        assert tables.alpha_deg is not None
+        arrays, reports = performance.compute_performance(
+            tables.alpha_deg, tables.columns["cl"], tables.columns["cd"], blade,
+            params["rotor"],
+        )
+        return DerivedResult(alpha_deg=None, columns=arrays, reports=reports)
     family = prepared_family(recipe, load_revision, family_cache)
     if kind == "blended":
         return blend_family(family, params)

@@ -202,6 +202,20 @@ THICKNESS_KNOTS = ((1.6, 1.0), (3.4, 1.0), (9.6, 0.40), (13.0, 0.35), (17.0, 0.3
 """(radius [m], t/c) knots, linear between them: cylinder root, transition, then the family."""
 
 
+DEMO_TURBINE = {
+    "notes": "fictional 3 MW-class machine for the demo (synthetic); not for design use",
+    "rated_power_w": 3.0e6,
+    "min_rotor_speed_rpm": 6.0,
+    "max_rotor_speed_rpm": 16.5,
+    "efficiency": 0.94,
+    "cut_in_m_s": 3.0,
+    "cut_out_m_s": 25.0,
+    "rho_kg_m3": 1.225,
+}
+"""Rotor data of the demo blade's fictional machine (invented: 3 MW rated, 82 m/s tip speed
+at the maximum rotor speed, drivetrain and generator efficiency 0.94)."""
+
+
 def blade_document() -> dict[str, object]:
     """The fictional demo blade skerry-48 (written as skerry-48.json).
 
@@ -235,6 +249,7 @@ def blade_document() -> dict[str, object]:
         "family": FAMILY,
         "surface": "clean",
         "operating_point": {"wind_speed_m_s": 10.0, "rotor_speed_rpm": 13.0},
+        "turbine": DEMO_TURBINE,
         "stations": stations,
     }
 

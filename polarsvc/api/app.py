@@ -80,9 +80,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     _install_error_handlers(app)
     _declare_text_rule(app)
 
-    from polarsvc.api.routers import admin, blades, catalogue, derived, polars
+    from polarsvc.api.routers import admin, blades, catalogue, derived, polars, rotor
 
-    for router in (catalogue.router, polars.router, blades.router, derived.router, admin.router):
+    for router in (catalogue.router, polars.router, blades.router, rotor.router,
+                   derived.router, admin.router):
         app.include_router(router, prefix=API_PREFIX)
 
     @app.get(f"{API_PREFIX}/health", tags=["service"])

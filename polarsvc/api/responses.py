@@ -27,7 +27,9 @@ from polarsvc.formats.binary import (
     ARROW_AVAILABLE,
     ARROW_MEDIA_TYPE,
     NPZ_MEDIA_TYPE,
+    arrays_arrow_table,
     arrow_table,
+    encode_arrays_npz,
     encode_npz,
     write_arrow,
 )
@@ -196,6 +198,52 @@ request. Bounded in bytes."""
 def _json_arrays(alpha_deg: np.ndarray, columns: Mapping[str, np.ndarray]) -> bytes:
     arrays = {name: np.ascontiguousarray(value) for name, value in columns.items()}
     return dumps({"alpha_deg": np.ascontiguousarray(alpha_deg), **arrays})
+
+
+def columns_csv_rows(columns: Mapping[str, np.ndarray]) -> bytes:
+    """Header and data lines of one-dimensional columns of one length (no comments)."""
+    header = ",".join(columns) + "\n"
+    stacked = np.column_stack([np.asarray(v, dtype=np.float64) for v in columns.values()])
+    return header.encode("utf-8") + encode_rows(stacked)
+
+
+def arrays_response(
+    request: Request,
+    *,
+    fmt: str,
+    content_hash: str,
+    arrays: Mapping[str, np.ndarray],
+    meta: Mapping[str, Any],
+    csv_columns: Mapping[str, np.ndarray],
+    csv_part: str,
+    extra_headers: Mapping[str, str] | None = None,
+) -> Response:
+    """A result of named arrays of any shapes (a rotor result) in the chosen format, with
+    the ETag and 304 handling of :func:`table_response`. JSON, Arrow and .npz carry every
+    array (the named-array layout of :mod:`polarsvc.formats.binary`); CSV carries
+    ``csv_columns`` (one-dimensional, of one length), the part ``csv_part`` of the result."""
+    meta_bytes = dumps(meta)
+    tag = f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}"
+    representation = fmt if fmt != "csv" else f"csv-{csv_part}"
+    etag = etag_for(tag, representation)
+    headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
+    if etag_matches(request, etag):
+        return Response(status_code=304, headers=headers)
+    key = (content_hash, representation, "arrays")
+    if fmt == "arrow":
+        table = ENCODED.get(key, lambda: arrays_arrow_table(arrays))
+        return Response(write_arrow(table, meta), media_type=ARROW_MEDIA_TYPE, headers=headers)
+    if fmt == "npz":
+        return Response(encode_arrays_npz(arrays, meta), media_type=NPZ_MEDIA_TYPE,
+                        headers=headers)
+    if fmt == "csv":
+        rows = ENCODED.get(key, lambda: columns_csv_rows(csv_columns))
+        return Response(csv_comments(meta) + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
+    arrays_json = ENCODED.get(
+        key, lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()})
+    )
+    body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
+    return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)
 
 
 def table_response(

@@ -94,6 +94,61 @@ class OperatingPointIn(StrictModel):
     rotor_speed_rpm: PositiveNumber
 
 
+class TurbineIn(StrictModel):
+    """Rotor data for power curves and annual energy (all optional here; a power curve
+    needs every field but the air density, from the blade or the request)."""
+
+    notes: Annotated[str, Field(max_length=4000)] | None = None
+    rated_power_w: PositiveNumber | None = None
+    min_rotor_speed_rpm: Annotated[Number, Field(ge=0, allow_inf_nan=False)] | None = None
+    max_rotor_speed_rpm: PositiveNumber | None = None
+    efficiency: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] | None = None
+    cut_in_m_s: PositiveNumber | None = None
+    cut_out_m_s: Annotated[Number, Field(gt=0, le=100, allow_inf_nan=False)] | None = None
+    rho_kg_m3: Annotated[Number, Field(gt=0, le=5, allow_inf_nan=False)] | None = None
+
+
+class RotorOptionsIn(StrictModel):
+    """Rotor settings of a performance request (defaults as the GET endpoint)."""
+
+    tip_loss: bool = True
+    hub_loss: bool = True
+    tangential_induction: bool = True
+    high_thrust: bool = True
+    turbine: TurbineIn | None = None
+    weibull: Annotated[
+        list[Annotated[list[PositiveNumber], Field(min_length=2, max_length=2)]],
+        Field(max_length=10, description="(k, A [m/s]) pairs"),
+    ] = []
+    loads_at_m_s: Annotated[list[PositiveNumber], Field(max_length=20)] = []
+
+
+class BladeSetSpec(StrictModel):
+    """One blade set and its rotor settings, for a comparison."""
+
+    blade: Annotated[str, Field(min_length=1, max_length=200)] = Field(
+        description="blade name (latest revision) or blade revision hash"
+    )
+    approved_only: bool | None = None
+    surface: Literal["clean", "tripped", "rough"] | None = None
+    rotation_model: Literal["snel", "du-selig", "chaviaropoulos-hansen", "none"] = "snel"
+    extension_method: Literal["viterna", "flat-plate"] = "viterna"
+    aspect_ratio: PositiveNumber | None = None
+    cd_max: PositiveNumber | None = None
+    thickness_method: Literal["linear", "pchip"] = "linear"
+    clamp: bool = False
+    wind_speed_m_s: Annotated[Number, Field(gt=0, le=100, allow_inf_nan=False)] | None = None
+    rotor_speed_rpm: Annotated[Number, Field(gt=0, le=1000, allow_inf_nan=False)] | None = None
+    rotor: RotorOptionsIn = RotorOptionsIn()
+
+
+class ComparisonIn(StrictModel):
+    """Two blade sets to compare (b minus a)."""
+
+    a: BladeSetSpec
+    b: BladeSetSpec
+
+
 class BladeIn(BaseModel):
     """A blade definition: stations from root to tip, the family whose sections it uses."""
 
@@ -106,6 +161,7 @@ class BladeIn(BaseModel):
     blade_count: Annotated[int, Field(ge=1, le=20)] = 3
     surface: Literal["clean", "tripped", "rough"] = "clean"
     operating_point: OperatingPointIn | None = None
+    turbine: TurbineIn | None = None
     stations: Annotated[list[StationIn], Field(min_length=2, max_length=500)]
 
     @model_validator(mode="after")

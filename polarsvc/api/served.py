@@ -8,8 +8,14 @@ import re
 from fastapi import Request
 from fastapi.responses import Response
 
-from polarsvc import recipes
-from polarsvc.api.responses import dumps, etag_for, etag_matches, table_response
+from polarsvc import performance, recipes
+from polarsvc.api.responses import (
+    arrays_response,
+    dumps,
+    etag_for,
+    etag_matches,
+    table_response,
+)
 from polarsvc.package import MEDIA_TYPE as PACKAGE_MEDIA_TYPE
 from polarsvc.package import build_station_package
 from polarsvc.pipeline import ServedTable
@@ -20,11 +26,14 @@ PACKAGE_FORMAT = "zip"
 _UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
 
-def served_response(request: Request, served: ServedTable, fmt: str) -> Response:
-    """The table with its recipe, hashes and reports; ETag is the content hash."""
+def served_response(
+    request: Request, served: ServedTable, fmt: str, part: str = "curve"
+) -> Response:
+    """The table with its recipe, hashes and reports; ETag is the content hash. A rotor
+    result in CSV is the table ``part`` of :data:`polarsvc.performance.TABLE_PARTS`."""
     radii = None
     stations = served.reports.get("stations") if served.reports else None
-    if served.columns["cl"].ndim == 2 and stations:
+    if served.alpha_deg is not None and served.columns["cl"].ndim == 2 and stations:
         radii = [float(s["radius_m"]) for s in stations]
     headers = {
         "X-Polarsvc-Recipe-Hash": served.recipe_hash,
@@ -32,6 +41,13 @@ def served_response(request: Request, served: ServedTable, fmt: str) -> Response
     }
     if served.deprecated_inputs:
         headers["X-Polarsvc-Deprecated-Inputs"] = str(len(served.deprecated_inputs))
+    if served.alpha_deg is None:
+        return arrays_response(
+            request, fmt=fmt, content_hash=served.content_hash, arrays=served.columns,
+            meta={**served.meta(), "part": part} if fmt == "csv" else served.meta(),
+            csv_columns=performance.table_part(served.columns, part) if fmt == "csv" else {},
+            csv_part=part, extra_headers=headers,
+        )
     return table_response(
         request,
         fmt=fmt,

@@ -14,6 +14,13 @@ recipe, inputs, reports, caution) and ``polarsvc.layout`` (JSON ``{"stations": n
 "angles": m, "station_column": name or null}``), so the table reshapes to stations x angles
 without reading the data. Fields carry their unit in their metadata (``unit``).
 
+A result of named arrays of different shapes (a rotor result) uses a second layout,
+``polarsvc.layout`` = ``{"arrays": [[name, [shape...]], ...]}``: an Arrow table of one row,
+one column per array, each a list of float64 holding the array flattened in C order (the
+shape is in the layout and in the field metadata, ``shape``); in ``.npz`` the arrays
+themselves. :func:`encode_arrays_arrow`, :func:`decode_arrays_arrow`,
+:func:`encode_arrays_npz` and :func:`decode_arrays_npz` read and write it.
+
 pyarrow is an install extra (``pip install "polarsvc[arrow]"``, about 170 MB installed).
 Without it the same arrays travel as an uncompressed ``.npz`` archive (media type
 :data:`NPZ_MEDIA_TYPE`, read by :func:`numpy.load`): one array per column name (``alpha_deg``
@@ -38,9 +45,14 @@ __all__ = [
     "ARROW_MEDIA_TYPE",
     "NPZ_MEDIA_TYPE",
     "BinaryTable",
+    "arrays_arrow_table",
     "arrow_table",
+    "decode_arrays_arrow",
+    "decode_arrays_npz",
     "decode_arrow",
     "decode_npz",
+    "encode_arrays_arrow",
+    "encode_arrays_npz",
     "encode_arrow",
     "encode_npz",
     "write_arrow",
@@ -229,3 +241,83 @@ def decode_npz(payload: bytes) -> BinaryTable:
     alpha = arrays.pop("alpha_deg")
     radius = arrays.pop("radius_m", None)
     return BinaryTable(alpha, arrays, meta, radius)
+
+
+def _arrays_layout(arrays: Mapping[str, ArrayLike]) -> tuple[dict[str, np.ndarray], list]:
+    blocks = {name: np.ascontiguousarray(v, dtype=np.float64) for name, v in arrays.items()}
+    return blocks, [[name, list(block.shape)] for name, block in blocks.items()]
+
+
+def arrays_arrow_table(arrays: Mapping[str, ArrayLike]) -> Any:
+    """Named arrays of any shapes as a one-row ``pyarrow.Table`` (the named-array layout of
+    the module docstring), without the response metadata (see :func:`write_arrow`)."""
+    pa = _pyarrow()
+    blocks, layout = _arrays_layout(arrays)
+    fields = [
+        pa.field(name, pa.list_(pa.float64()), nullable=False,
+                 metadata={"shape": orjson.dumps(list(block.shape))})
+        for name, block in blocks.items()
+    ]
+    schema = pa.schema(fields, metadata={LAYOUT_KEY: orjson.dumps({"arrays": layout})})
+    columns = [
+        pa.ListArray.from_arrays(pa.array([0, block.size], type=pa.int32()),
+                                 pa.array(block.reshape(-1)))
+        for block in blocks.values()
+    ]
+    return pa.Table.from_arrays(columns, schema=schema)
+
+
+def encode_arrays_arrow(arrays: Mapping[str, ArrayLike], meta: Mapping[str, Any]) -> bytes:
+    """Named arrays and metadata as an Arrow IPC stream (named-array layout)."""
+    return write_arrow(arrays_arrow_table(arrays), meta)
+
+
+def decode_arrays_arrow(payload: bytes) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
+    """Read a stream written by :func:`encode_arrays_arrow`: (arrays, meta).
+
+    Raises
+    ------
+    ValueError
+        If the bytes are not an Arrow stream of the named-array layout.
+    """
+    pa = _pyarrow()
+    try:
+        table = pa.ipc.open_stream(payload).read_all()
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise ValueError(f"not an Arrow IPC stream: {exc}") from None
+    metadata = table.schema.metadata or {}
+    layout = orjson.loads(metadata.get(LAYOUT_KEY, b"{}"))
+    if "arrays" not in layout:
+        raise ValueError("Arrow stream without the named-array layout")
+    meta = orjson.loads(metadata[META_KEY]) if META_KEY in metadata else {}
+    arrays = {
+        name: table.column(name).combine_chunks().flatten().to_numpy(zero_copy_only=False)
+        .reshape(shape)
+        for name, shape in layout["arrays"]
+    }
+    return arrays, meta
+
+
+def encode_arrays_npz(arrays: Mapping[str, ArrayLike], meta: Mapping[str, Any]) -> bytes:
+    """Named arrays and metadata as an uncompressed ``.npz`` archive (``meta`` as a 0-d
+    string array of JSON; the names ``meta`` is reserved)."""
+    blocks, _ = _arrays_layout(arrays)
+    if "meta" in blocks:
+        raise ValueError("an array may not be called 'meta' in the .npz form")
+    buffer = io.BytesIO()
+    np.savez(buffer, **{name: b.astype("<f8") for name, b in blocks.items()},
+             meta=np.array(orjson.dumps(meta, option=_JSON).decode("utf-8")))
+    return buffer.getvalue()
+
+
+def decode_arrays_npz(payload: bytes) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
+    """Read an archive written by :func:`encode_arrays_npz`: (arrays, meta)."""
+    try:
+        with np.load(io.BytesIO(payload), allow_pickle=False) as archive:
+            arrays = {name: archive[name] for name in archive.files}
+    except (OSError, ValueError, EOFError, zipfile.BadZipFile) as exc:
+        raise ValueError(f"not an .npz archive: {exc}") from None
+    if "meta" not in arrays:
+        raise ValueError("not a polarsvc .npz archive: meta is missing")
+    meta = orjson.loads(str(arrays.pop("meta")))
+    return arrays, meta

@@ -16,9 +16,11 @@ from sqlalchemy.orm import Session
 
 from polarsvc.hashing import (
     canonical_json,
+    canonical_result,
     canonical_table,
     decode_array_bytes,
     recipe_hash,
+    result_content_hash,
     table_content_hash,
 )
 from polarsvc.store._lookup import (
@@ -68,7 +70,7 @@ def put_derived(
     *,
     recipe: Mapping[str, Any],
     kind: str,
-    alpha_deg: ArrayLike,
+    alpha_deg: ArrayLike | None,
     columns: Mapping[str, ArrayLike],
     input_revision_ids: Sequence[int],
     blade_id: int | None = None,
@@ -84,11 +86,13 @@ def put_derived(
     kind : str
         One of :data:`~polarsvc.store.models.DERIVED_KINDS`; must equal ``recipe["kind"]``
         when the recipe has that key.
-    alpha_deg : array_like
-        Angle of attack [deg], one-dimensional.
+    alpha_deg : array_like or None
+        Angle of attack [deg], one-dimensional; ``None`` for a result of named arrays of
+        any shapes (kind ``rotor``, hashed by :func:`polarsvc.hashing.result_content_hash`).
     columns : mapping of str to array_like
         Coefficient arrays (e.g. ``cl``, ``cd``, ``cm``), all of one shape ending with the
-        number of angles (1-D, or stations x angles for a blade set).
+        number of angles (1-D, or stations x angles for a blade set); or the named arrays
+        of a result.
     input_revision_ids : sequence of int
         Ids of the stored revisions the table was computed from.
     blade_id : int, optional
@@ -113,9 +117,20 @@ def put_derived(
     check_choice("kind", kind, DERIVED_KINDS)
     if "kind" in recipe and recipe["kind"] != kind:
         raise InvalidValue("kind", f"{kind!r} differs from the recipe's {recipe['kind']!r}")
-    alpha, arrays = _stack(alpha_deg, columns)
     key = recipe_hash(recipe)
-    content_hash, parts = canonical_table(alpha, *arrays)
+    if alpha_deg is None:
+        try:
+            content_hash, parts = canonical_result(columns)
+        except ValueError as exc:
+            raise InvalidValue("columns", str(exc)) from None
+        layout: dict[str, Any] = {
+            "arrays": [[name, list(np.shape(value))] for name, value in columns.items()]
+        }
+    else:
+        alpha, arrays = _stack(alpha_deg, columns)
+        content_hash, parts = canonical_table(alpha, *arrays)
+        layout = {"columns": list(columns), "alpha_size": int(alpha.size),
+                  "shape": list(arrays[0].shape)}
     existing = get_derived(session, recipe_hash=key)
     if existing is not None:
         return _same_content(existing, content_hash), False
@@ -134,10 +149,7 @@ def put_derived(
         recipe=canonical_json(recipe).decode("utf-8"),
         content_hash=content_hash,
         payload=b"".join(parts),
-        payload_shape=canonical_json(
-            {"columns": list(columns), "alpha_size": int(alpha.size),
-             "shape": list(arrays[0].shape)}
-        ).decode("utf-8"),
+        payload_shape=canonical_json(layout).decode("utf-8"),
         blade_id=blade_id,
         reports=None if reports is None else _reports_text(reports),
     )
@@ -237,9 +249,9 @@ def derived_recipe(table: DerivedTable) -> dict[str, Any]:
 
 def derived_arrays(
     table: DerivedTable,
-) -> tuple[NDArray[np.float64], dict[str, NDArray[np.float64]]]:
+) -> tuple[NDArray[np.float64] | None, dict[str, NDArray[np.float64]]]:
     """The cached angles [deg] and named coefficient arrays, checked against the content
-    hash.
+    hash; for a result of named arrays (no angle column) ``(None, arrays)``.
 
     Raises
     ------
@@ -247,6 +259,8 @@ def derived_arrays(
         If the payload does not fit its shape or no longer hashes to ``content_hash``.
     """
     layout = json.loads(table.payload_shape)
+    if "arrays" in layout:
+        return None, _result_arrays(table, layout["arrays"])
     shape = tuple(int(n) for n in layout["shape"])
     names = layout["columns"]
     n_alpha = int(layout["alpha_size"])
@@ -262,6 +276,26 @@ def derived_arrays(
     if table_content_hash(alpha, *columns.values()) != table.content_hash:
         raise IntegrityProblem(f"derived table {table.recipe_hash}: payload hash mismatch")
     return alpha, columns
+
+
+def _result_arrays(
+    table: DerivedTable, entries: list[list[Any]]
+) -> dict[str, NDArray[np.float64]]:
+    try:
+        values = decode_array_bytes(bytes(table.payload))
+        arrays = {}
+        start = 0
+        for name, shape in entries:
+            size = math.prod(shape)
+            arrays[name] = values[start: start + size].reshape(shape)
+            start += size
+        if start != values.size:
+            raise ValueError(f"{values.size} values do not fit the layout")
+    except ValueError as exc:
+        raise IntegrityProblem(f"derived result {table.recipe_hash}: {exc}") from None
+    if result_content_hash(arrays) != table.content_hash:
+        raise IntegrityProblem(f"derived result {table.recipe_hash}: payload hash mismatch")
+    return arrays
 
 
 def derived_using_revision(session: Session, *, revision_id: int) -> Sequence[DerivedTable]:

@@ -42,7 +42,9 @@ NAMING_CONVENTION = {
 }
 
 REVIEW_STATES: tuple[str, ...] = ("draft", "approved", "deprecated")
-DERIVED_KINDS: tuple[str, ...] = ("extended", "augmented", "resampled", "blended", "blade-set")
+DERIVED_KINDS: tuple[str, ...] = (
+    "extended", "augmented", "resampled", "blended", "blade-set", "rotor"
+)
 TOKEN_ROLES: tuple[str, ...] = ("reader", "curator", "admin")
 
 HASH_LENGTH = 64
@@ -190,7 +192,9 @@ class DerivedTable(Base):
 
     ``payload`` holds the canonical float64 bytes of the angle column followed by each
     coefficient array in order; ``payload_shape`` (JSON ``{"columns": [names],
-    "alpha_size": n, "shape": [...]}``) gives the layout.
+    "alpha_size": n, "shape": [...]}``) gives the layout. A result of named arrays of
+    different shapes (kind ``rotor``) has no angle column: its layout is ``{"arrays":
+    [[name, [shape...]], ...]}``, its content hash :func:`polarsvc.hashing.result_content_hash`.
     """
 
     __tablename__ = "derived_table"

@@ -3,6 +3,7 @@ pages. Each figure and its CSV come from the same view-data function."""
 
 from __future__ import annotations
 
+import numpy as np
 from fastapi import APIRouter, Request
 from fastapi.responses import Response
 
@@ -11,8 +12,9 @@ from polarsvc.api.deps import ReadSession
 from polarsvc.formats import table_to_csv
 from polarsvc.names import safe_file_stem
 from polarsvc.store import airfoils as airfoil_store
+from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
-from polarsvc.web import plots, viewdata
+from polarsvc.web import plots, rotor_plots, rotor_view, viewdata
 from polarsvc.web.security import PageError, PageReader
 
 SVG_MEDIA_TYPE = "image/svg+xml"
@@ -243,3 +245,74 @@ def add_routes(router: APIRouter) -> None:
         _kind(kind)
         series, _ = blade_data(request, session, name).station_series(_span(request))
         return csv_response(plots.series_csv(series), download_name(name, "stations", kind))
+
+    # -- rotor ------------------------------------------------------------------------------
+    def rotor_data(request: Request, session, name: str) -> rotor_view.RotorView:
+        blade = blade_store.latest_blade(session, name)
+        clamp = (request.query_params.get("clamp") or "yes") != "no"
+        return rotor_view.rotor_view(
+            request.app.state.session_factory, blade.content_hash, request.query_params,
+            clamp=clamp, approved_only=bool(request.app.state.settings.approved_only),
+        )
+
+    def rotor_curves(view: rotor_view.RotorView, kind: str):
+        """(x name, x, curves, x label, y label, title, zero line) of a rotor plot."""
+        if view.result is None:
+            raise PageError(404, "this blade has no rotor result (see the blade page)")
+        a = view.arrays
+        b = view.other.columns if view.other is not None else None
+        label_b = rotor_view.COMPARISONS[view.compare]
+        if kind == "cp-lambda":
+            curves = [("Cp", a["cp_lambda"])]
+            if b is not None:
+                curves = [("as stored", a["cp_lambda"]), (label_b, np.interp(
+                    a["tip_speed_ratio"], b["tip_speed_ratio"], b["cp_lambda"]))]
+            return ("tip_speed_ratio", a["tip_speed_ratio"], curves, "tip speed ratio [-]",
+                    "power coefficient Cp [-]", "Cp at the fine pitch", False)
+        if kind == "power":
+            curves = [("electrical power [kW]", a["power_w"] / 1e3)]
+            if b is not None:
+                curves = [("as stored", a["power_w"] / 1e3), (label_b, np.interp(
+                    a["wind_speed_m_s"], b["wind_speed_m_s"], b["power_w"]) / 1e3)]
+            return ("wind_speed_m_s", a["wind_speed_m_s"], curves, "wind speed [m/s]",
+                    "electrical power [kW]", "Power curve", False)
+        if kind == "loads":
+            row, station = view.loads() or (0, {})
+            speed = float(a["wind_speed_m_s"][row])
+            curves = [("normal [kN/m]", station["normal_force_n_per_m"] / 1e3),
+                      ("tangential [kN/m]", station["tangential_force_n_per_m"] / 1e3)]
+            return ("radius_m", a["radius_m"], curves, "radius r [m]",
+                    "force per unit length [kN/m]", f"Spanwise loads at {speed:g} m/s", True)
+        if kind in ("delta-cp", "delta-power"):
+            if view.comparison is None:
+                raise PageError(404, "choose a comparison on the blade page first")
+            if kind == "delta-cp":
+                block = view.comparison["cp_lambda"]
+                return ("tip_speed_ratio", block["tip_speed_ratio"],
+                        [("delta Cp", block["delta"])], "tip speed ratio [-]",
+                        "delta Cp [-]", f"Cp, {label_b} minus as stored", True)
+            block = view.comparison["power_curve"]
+            return ("wind_speed_m_s", block["wind_speed_m_s"],
+                    [("delta power [kW]", np.asarray(block["delta_w"]) / 1e3)],
+                    "wind speed [m/s]", "delta power [kW]",
+                    f"Power, {label_b} minus as stored", True)
+        raise PageError(404, f"no rotor plot {kind!r}")
+
+    @router.get("/plots/blades/{name}/rotor-{kind}.svg")
+    def blade_rotor_svg(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        _, x, curves, xlabel, ylabel, title, zero = rotor_curves(
+            rotor_data(request, session, name), kind
+        )
+        body = rotor_plots.curves_svg(x, curves, xlabel=xlabel, ylabel=ylabel,
+                                      title=f"{name}: {title}", zero_line=zero)
+        return svg_response(body, download_name(name, "rotor", kind))
+
+    @router.get("/plots/blades/{name}/rotor-{kind}.csv")
+    def blade_rotor_csv(
+        request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
+    ) -> Response:
+        x_name, x, curves, *_ = rotor_curves(rotor_data(request, session, name), kind)
+        return csv_response(rotor_plots.curves_csv(x_name, x, curves),
+                            download_name(name, "rotor", kind))

@@ -18,7 +18,7 @@ from polarsvc.store import derived as derived_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import REVIEW_STATES, SOURCE_KINDS
-from polarsvc.web import viewdata
+from polarsvc.web import rotor_view, viewdata
 from polarsvc.web.plots import PLOT_KINDS
 from polarsvc.web.security import PageReader, sign_in_url
 from polarsvc.web.templating import render
@@ -237,10 +237,32 @@ def add_routes(router: APIRouter) -> None:
         )
         base = f"/plots/blades/{url_name(name)}"
         query = urlencode({"clamp": "yes" if view.clamp else "no"})
+        rotor = rotor_view.rotor_view(
+            _factory(request), view.content_hash, request.query_params, clamp=view.clamp,
+            approved_only=_approved_only(request),
+        )
+        rotor_query = urlencode({
+            "clamp": "yes" if view.clamp else "no", "compare": rotor.compare,
+            **({"loads_at": f"{rotor.loads_at_m_s:g}"} if rotor.loads_at_m_s else {}),
+        })
+        rotor_kinds = [("cp-lambda", "Cp along the tip speed ratio"),
+                       ("power", "power curve"),
+                       ("loads", "spanwise loads")]
+        if rotor.comparison is not None:
+            rotor_kinds += [("delta-cp", "comparison: delta Cp"),
+                            ("delta-power", "comparison: delta power")]
         return render(
             request,
             "blade.html",
             {
+                "rotor": rotor,
+                "rotor_facts": rotor.facts(),
+                "rotor_choices": rotor_view.COMPARISONS,
+                "rotor_plots": [
+                    {"title": title, "svg": f"{base}/rotor-{kind}.svg?{rotor_query}",
+                     "csv": f"{base}/rotor-{kind}.csv?{rotor_query}"}
+                    for kind, title in rotor_kinds
+                ] if rotor.result is not None else [],
                 "viewer": viewer,
                 "nav": "catalogue",
                 "title": f"Blade {name}",

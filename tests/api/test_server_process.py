@@ -115,6 +115,28 @@ def test_a_second_server_on_a_busy_port_fails_before_printing_a_token(demo_serve
     assert "token" not in result.stderr and "http://" not in result.stderr
 
 
+def test_client_gets_rotor_performance_as_arrays(demo_server):
+    base, _, _ = demo_server
+    with PolarClient(base) as client:
+        result = client.performance("skerry-48")
+        assert result["cp"].shape == (57, 8)  # tip speed ratio 1..15 x pitch -5..30
+        assert result["normal_force_n_per_m"].shape[1] == 20
+        assert result.rated_wind_speed_m_s is not None
+        assert set(result.annual_energy) >= {"IEC class I: Rayleigh, mean 10 m/s"}
+        assert "screening check" in result.meta["rotor_caution"]
+        assert client.verify(result.content_hash)["matches"] is True
+        tree = client.lineage(result.content_hash)
+        assert tree["blade_set"]["recipe_hash"] == result.meta["blade_set_recipe_hash"]
+        comparison = client.compare_performance(
+            {"blade": "skerry-48"}, {"blade": "skerry-48", "rotor": {"tip_loss": False}}
+        )
+        assert comparison["a"]["content_hash"] == result.content_hash
+        assert isinstance(comparison["power_curve"]["delta_w"], np.ndarray)
+        assert [d["parameter"] for d in comparison["differences"]["parameters"]] == [
+            "rotor.tip_loss"
+        ]
+
+
 def test_cli_fetches_the_station_package_from_the_server_of_its_folder(demo_server, tmp_path):
     base, _, workdir = demo_server
     target = tmp_path / "skerry-48.zip"

@@ -137,3 +137,55 @@ def test_a_curator_reviews_a_draft_in_the_browser(live_server, demo_database):
     with session_scope(app.state.session_factory, write=False) as session:
         assert polar_store.get_revision(session, draft).review_state == "approved"
     assert problems == [], problems
+
+
+def _scroll_through(page, images) -> None:
+    """Bring every (lazily loaded) image into view and wait for the loads."""
+    for index in range(images.count()):
+        image = images.nth(index)
+        image.scroll_into_view_if_needed()
+        page.wait_for_function("img => img.complete && img.naturalWidth > 0",
+                               arg=image.element_handle(), timeout=120_000)
+
+
+def test_the_blade_page_shows_rotor_performance_and_a_comparison(live_server, demo_database):
+    if not CHROMIUM.exists():
+        pytest.skip(f"no system Chromium at {CHROMIUM} (install the distribution's chromium)")
+    sync_api = pytest.importorskip("playwright.sync_api")
+    base, _ = live_server
+    problems: list[str] = []
+    with sync_api.sync_playwright() as playwright:
+        browser = playwright.chromium.launch(
+            headless=True, executable_path=str(CHROMIUM), args=CHROMIUM_ARGS
+        )
+        try:
+            page = browser.new_page(viewport={"width": 1280, "height": 900})
+            page.on("console", lambda m: m.type == "error" and problems.append(m.text))
+            page.on(
+                "requestfailed",
+                lambda r: r.failure != "net::ERR_ABORTED" and problems.append(f"{r.url}"),
+            )
+            page.goto(base + "/blades/skerry-48", timeout=120_000)
+            page.wait_for_load_state("networkidle", timeout=120_000)
+            assert "screening check" in page.locator("p[role=note]").inner_text()
+            rotor = page.locator("img[src*='/rotor-']")
+            assert rotor.count() == 3
+            _scroll_through(page, page.locator("img"))
+            assert _images_loaded(page) == []
+            # spanwise loads at another wind speed, compared without augmentation
+            page.select_option("select[name=loads_at]", "15.0")
+            page.select_option("select[name=compare]", "rotation-none")
+            page.get_by_role("button", name="Show").click()
+            page.wait_for_url("**compare=rotation-none**", timeout=120_000)
+            page.wait_for_load_state("networkidle", timeout=120_000)
+            assert page.locator("img[src*='/rotor-']").count() == 5
+            _scroll_through(page, page.locator("img"))
+            assert _images_loaded(page) == []
+            assert page.locator("select[name=loads_at]").input_value() == "15.0"
+            assert "without rotational augmentation" in page.locator(
+                "table[aria-label='comparison of annual energy']").inner_text().lower()
+            ARTIFACTS.mkdir(exist_ok=True)
+            page.screenshot(path=str(ARTIFACTS / "blade-rotor.png"), full_page=True)
+        finally:
+            browser.close()
+    assert problems == [], problems

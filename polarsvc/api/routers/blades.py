@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Annotated, Any
 
-from fastapi import APIRouter, Query, Request
+from fastapi import APIRouter, Depends, Query, Request
 
 from polarsvc import pipeline, recipes
 from polarsvc.api.deps import Curator, Principal, Reader, ReadSession, SettingsDep
@@ -89,6 +89,36 @@ def get_blade(key: str, session: ReadSession, principal: Reader):
     return json_response(blade_summary(blade, principal, with_definition=True))
 
 
+def blade_set_query(
+    extension: ExtensionQuery,
+    fade: FadeQuery,
+    rotation_model: Annotated[
+        str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
+    ] = "snel",
+    surface: Annotated[str | None, Query(description="default: the blade's own")] = None,
+    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
+    clamp: bool = False,
+    wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
+    rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
+    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+) -> dict[str, Any]:
+    """How a blade set is prepared: the keywords of
+    :func:`polarsvc.recipes.blade_set_params`."""
+    return {
+        "surface": surface,
+        "thickness_method": thickness_method,
+        "clamp": clamp,
+        "extension": extension,
+        "rotation": {"model": rotation_model, **(fade if rotation_model != "none" else {})},
+        "step_deg": step_deg,
+        "wind_speed_m_s": wind_speed_m_s,
+        "rotor_speed_rpm": rotor_speed_rpm,
+    }
+
+
+BladeSetQuery = Annotated[dict[str, Any], Depends(blade_set_query)]
+
+
 @router.get(
     "/blades/{key}/tables",
     summary="The full set of station tables of a blade (stations x angles)",
@@ -108,31 +138,11 @@ def get_blade(key: str, session: ReadSession, principal: Reader):
     ),
 )
 def blade_tables(
-    key: str, request: Request, settings: SettingsDep, _: Reader, extension: ExtensionQuery,
-    fade: FadeQuery,
-    rotation_model: Annotated[
-        str, Query(description="snel, du-selig, chaviaropoulos-hansen or none")
-    ] = "snel",
-    surface: Annotated[str | None, Query(description="default: the blade's own")] = None,
-    thickness_method: Annotated[str, Query(description="linear or pchip")] = "linear",
-    clamp: bool = False,
-    wind_speed_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
-    rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
-    step_deg: GridStep = recipes.DEFAULT_STEP_DEG,
+    key: str, request: Request, settings: SettingsDep, _: Reader, options: BladeSetQuery,
     format: FormatQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = PACKAGE_FORMAT if format == PACKAGE_FORMAT else choose_format(request, format)
-    options = {
-        "surface": surface,
-        "thickness_method": thickness_method,
-        "clamp": clamp,
-        "extension": extension,
-        "rotation": {"model": rotation_model, **(fade if rotation_model != "none" else {})},
-        "step_deg": step_deg,
-        "wind_speed_m_s": wind_speed_m_s,
-        "rotor_speed_rpm": rotor_speed_rpm,
-    }
     served = pipeline.blade_set(
         request.app.state.session_factory, blade_key=key, options=options,
         approved_only=approved_only_setting(settings, approved_only),
