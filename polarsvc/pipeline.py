@@ -217,7 +217,9 @@ numbers and short strings in dicts), for the byte bounds of the caches."""
 
 def _served_size(served: ServedTable) -> int:
     """Approximate memory of a served table: its arrays, plus its station reports."""
-    arrays = served.alpha_deg.nbytes + sum(c.nbytes for c in served.columns.values())
+    arrays = sum(
+        int(getattr(a, "nbytes", 0)) for a in (served.alpha_deg, *served.columns.values())
+    )
     stations = served.reports.get("stations") if served.reports else None
     return arrays + REPORT_BYTES_PER_STATION * (len(stations) if stations else 1)
 
