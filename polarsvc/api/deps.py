@@ -42,11 +42,12 @@ class Principal:
         return Actor(name=self.name, role=self.role, remote_addr=self.remote_addr)
 
 
-def refuse_control_characters(request: Request) -> None:
+async def refuse_control_characters(request: Request) -> None:
     """Refuse (422, naming the parameter) a path or query parameter holding a control
     character other than tab and line ends (:func:`polarsvc.names.check_text`). Applied to
     every route, API and pages, so both databases see the same text (PostgreSQL cannot
-    store NUL)."""
+    store NUL). A short scan of the address: it runs on the event loop, sparing every
+    request a trip through the worker threads."""
     items = [*request.path_params.items(), *request.query_params.multi_items()]
     for name, value in items:
         for field, text in ((name, name), (name, value)):

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import hashlib
-import re
 
 from fastapi import Request
 from fastapi.responses import Response
@@ -16,14 +15,13 @@ from polarsvc.api.responses import (
     etag_matches,
     table_response,
 )
+from polarsvc.names import safe_file_stem
 from polarsvc.package import MEDIA_TYPE as PACKAGE_MEDIA_TYPE
 from polarsvc.package import build_station_package
 from polarsvc.pipeline import ServedTable
 
 PACKAGE_FORMAT = "zip"
 """The ``format`` value asking a blade set for its station package."""
-
-_UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
 
 def served_response(
@@ -67,13 +65,13 @@ def package_response(request: Request, served: ServedTable) -> Response:
     meta = served.meta()
     digest = hashlib.sha256(dumps(meta)).hexdigest()[:16]
     etag = etag_for(f"{served.content_hash}.{digest}", PACKAGE_FORMAT)
-    stem = _UNSAFE_NAME.sub("_", str((served.blade or {}).get("name") or "blade")).strip("._")
+    stem = safe_file_stem(str((served.blade or {}).get("name") or "blade"))
     headers = {
         "ETag": etag,
         "X-Polarsvc-Content-Hash": served.content_hash,
         "X-Polarsvc-Recipe-Hash": served.recipe_hash,
         "Content-Disposition": (
-            f'attachment; filename="{stem or "blade"}_{served.content_hash[:12]}.zip"'
+            f'attachment; filename="{stem}_{served.content_hash[:12]}.zip"'
         ),
     }
     if etag_matches(request, etag):
