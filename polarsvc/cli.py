@@ -311,9 +311,13 @@ def cmd_import(args: argparse.Namespace) -> int:
         _stderr("no table files found")
         return 1
     factory = _factory(args)
+    if args.create_families:
+        _create_stated_families(factory, files, defaults)
     counts = {"stored": 0, "identical": 0, "refused": 0}
     for index, report in enumerate(
-        import_files(factory, files, actor=_local_actor(), defaults=defaults), start=1
+        import_files(factory, files, actor=_local_actor(), defaults=defaults,
+                     override_quality=args.override_quality),
+        start=1,
     ):
         counts[report.status] += 1
         detail = (
@@ -321,11 +325,69 @@ def cmd_import(args: argparse.Namespace) -> int:
             else f"{report.stored} stored, {report.identical} identical"
         )
         print(f"[{index}/{len(files)}] {report.path}: {report.status} ({detail})", flush=True)
+        for flag in report.flags:
+            print(f"    {format_flag(flag)}", flush=True)
     _stderr(
         f"{len(files)} files: {counts['stored']} stored, {counts['identical']} identical, "
         f"{counts['refused']} refused"
     )
     return 1 if counts["refused"] else 0
+
+
+def format_flag(flag: dict[str, Any]) -> str:
+    """One quality flag as a line of text: level, code, place and message."""
+    where = ", ".join(
+        part for part in (
+            f"line {flag['line']}" if flag.get("line") is not None else "",
+            f"field {flag['field']}" if flag.get("field") else "",
+        ) if part
+    )
+    return f"{flag['level']} {flag['code']}" + (f" ({where})" if where else "") + \
+        f": {flag['message']}"
+
+
+def _create_stated_families(factory: Any, files: Sequence[Path], defaults: dict) -> None:
+    """Create the families the files (or ``--family``) name, before importing them."""
+    from polarsvc.formats import FormatError, parse_polar_file
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    names = set()
+    for path in files:
+        try:
+            parsed = parse_polar_file(path.read_bytes(), filename=path.name, defaults=defaults)
+        except (FormatError, OSError):
+            continue  # the import itself reports the problem
+        names.update(p.family for p in parsed if p.family)
+    with session_scope(factory, write=True) as session:
+        for name in sorted(names):
+            _, created = airfoil_store.get_or_create_family(
+                session, name=name, actor=_local_actor()
+            )
+            if created:
+                _stderr(f"family {name!r} created")
+
+
+def cmd_family(args: argparse.Namespace) -> int:
+    from polarsvc.store import airfoils as airfoil_store
+    from polarsvc.store.db import session_scope
+
+    factory = _factory(args)
+    with session_scope(factory, write=args.action != "list") as session:
+        if args.action == "create":
+            airfoil_store.create_family(
+                session, name=args.name, description=args.description or "",
+                actor=_local_actor(),
+            )
+            print(f"family {args.name!r} created")
+        else:
+            for family in airfoil_store.list_families(session):
+                members = ", ".join(
+                    f"{a.name} ({a.thickness:g}{', retired' if a.retired else ''})"
+                    for a in sorted(family.airfoils, key=lambda a: a.thickness)
+                )
+                print(f"{family.name}\t{members}")
+    return 0
 
 
 def cmd_export(args: argparse.Namespace) -> int:
@@ -447,9 +509,59 @@ def cmd_review(args: argparse.Namespace) -> int:
     with session_scope(factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=args.revision, state=state, reason=args.reason,
-            replaced_by_hash=args.replaced_by, actor=_local_actor(),
+            replaced_by_hash=args.replaced_by,
+            replacement_reason=getattr(args, "replacement_reason", None),
+            actor=_local_actor(),
         )
         print(f"{revision.content_hash}: {revision.review_state}")
+    return 0
+
+
+PROVENANCE_OPTIONS = ("source_kind", "reference", "facility", "measured_on", "contributor",
+                      "notes")
+
+
+def cmd_correct(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    changes = {k: getattr(args, k) for k in PROVENANCE_OPTIONS if getattr(args, k) is not None}
+    with session_scope(_factory(args), write=True) as session:
+        revision = curation.correct_provenance(
+            session, content_hash=args.revision, changes=changes, reason=args.reason,
+            actor=_local_actor(),
+        )
+        print(f"{revision.content_hash}: supersedes {revision.supersedes.content_hash}")
+    return 0
+
+
+def cmd_airfoil(args: argparse.Namespace) -> int:
+    from polarsvc.store import curation
+    from polarsvc.store.db import session_scope
+
+    actor = _local_actor()
+    with session_scope(_factory(args), write=True) as session:
+        if args.action == "move":
+            airfoil = curation.move_airfoil(
+                session, name=args.name, family=None if args.family == "-" else args.family,
+                reason=args.reason, actor=actor,
+            )
+            where = airfoil.family.name if airfoil.family else "no family"
+            print(f"airfoil {airfoil.name!r} moved to {where}")
+        elif args.action == "rename":
+            airfoil = curation.rename_airfoil(
+                session, name=args.name, new_name=args.new_name, reason=args.reason,
+                actor=actor,
+            )
+            print(f"airfoil {args.name!r} renamed {airfoil.name!r} (the old name still "
+                  "resolves)")
+        else:
+            airfoil = curation.set_retired(
+                session, name=args.name, retired=args.action == "retire", reason=args.reason,
+                actor=actor,
+            )
+            state = "retired from blends" if airfoil.retired else "reinstated"
+            print(f"airfoil {airfoil.name!r} {state}")
     return 0
 
 
@@ -467,10 +579,29 @@ def cmd_audit(args: argparse.Namespace) -> int:
             print(
                 f"{event.occurred_at.isoformat()}\t{event.actor_name} ({event.actor_role})\t"
                 f"{event.action}\t{event.object_kind}:{event.object_key}\t"
-                f"{event.before_hash or '-'} -> {event.after_hash or '-'}\t"
-                f"{event.remote_addr or '-'}"
+                f"{audit_change(event)}\t{event.remote_addr or '-'}"
             )
     return 0
+
+
+def audit_change(event: Any) -> str:
+    """What an audit event changed, as text: a state change with its reason (reviews,
+    corrections: ``from -> to``), else the hashes before and after."""
+    detail = json.loads(event.detail or "{}")
+    if "from" in detail and "to" in detail:
+        text = f"{_shown(detail['from'])} -> {_shown(detail['to'])}"
+    else:
+        text = f"{event.before_hash or '-'} -> {event.after_hash or '-'}"
+    for key in ("reason", "replaced_by", "override"):
+        if detail.get(key):
+            text += f" ({key}: {detail[key]})"
+    return text
+
+
+def _shown(value: Any) -> str:
+    if isinstance(value, dict):
+        return ", ".join(f"{k}={v}" for k, v in value.items())
+    return "-" if value is None else str(value)
 
 
 def cmd_lineage(args: argparse.Namespace) -> int:
@@ -686,7 +817,21 @@ def build_parser() -> argparse.ArgumentParser:
     for option in METADATA_OPTIONS:
         importer.add_argument("--" + option.replace("_", "-"), dest=option,
                               help=f"{option} where a file does not state it")
+    importer.add_argument("--create-families", action="store_true",
+                          help="create the families the files name (otherwise a file naming "
+                          "a family that does not exist is refused)")
+    importer.add_argument("--override-quality", metavar="REASON",
+                          help="store files despite error-level quality flags; the reason is "
+                          "kept with each revision and in the audit trail")
     importer.set_defaults(handler=cmd_import)
+
+    family = commands.add_parser("family", help="create or list airfoil families")
+    family_commands = family.add_subparsers(dest="action", required=True)
+    family_create = family_commands.add_parser("create")
+    family_create.add_argument("name")
+    family_create.add_argument("--description")
+    family_create.set_defaults(handler=cmd_family)
+    family_commands.add_parser("list").set_defaults(handler=cmd_family)
 
     exporter = commands.add_parser("export", help="write stored revisions to files")
     exporter.add_argument("destination")
@@ -749,8 +894,37 @@ def build_parser() -> argparse.ArgumentParser:
     deprecate = review_commands.add_parser("deprecate")
     deprecate.add_argument("revision")
     deprecate.add_argument("--reason", required=True)
-    deprecate.add_argument("--replaced-by")
+    deprecate.add_argument("--replaced-by",
+                           help="the revision replacing this one (same airfoil, Reynolds "
+                           "number, Mach number and surface, unless --replacement-reason)")
+    deprecate.add_argument("--replacement-reason",
+                           help="why a replacement at other conditions is right")
     deprecate.set_defaults(handler=cmd_review)
+    correct = review_commands.add_parser(
+        "correct", help="fix provenance fields by a new revision that supersedes this one")
+    correct.add_argument("revision")
+    correct.add_argument("--reason", required=True)
+    for option in PROVENANCE_OPTIONS:
+        correct.add_argument("--" + option.replace("_", "-"), dest=option,
+                             help=f"corrected {option}")
+    correct.set_defaults(handler=cmd_correct)
+
+    airfoil = commands.add_parser(
+        "airfoil", help="corrections: move, rename, retire from blends, reinstate")
+    airfoil_commands = airfoil.add_subparsers(dest="action", required=True)
+    move = airfoil_commands.add_parser("move", help="move to another family ('-': none)")
+    move.add_argument("name")
+    move.add_argument("family")
+    rename = airfoil_commands.add_parser("rename", help="rename; the old name stays an alias")
+    rename.add_argument("name")
+    rename.add_argument("new_name")
+    retire = airfoil_commands.add_parser("retire", help="leave family blends and blade sets")
+    retire.add_argument("name")
+    reinstate = airfoil_commands.add_parser("reinstate", help="undo a retirement")
+    reinstate.add_argument("name")
+    for command in (move, rename, retire, reinstate):
+        command.add_argument("--reason", required=True)
+        command.set_defaults(handler=cmd_airfoil)
 
     audit = commands.add_parser("audit", help="query the audit trail")
     audit.add_argument("--since", type=_aware_datetime, help="ISO time (UTC if no zone)")

@@ -64,6 +64,7 @@ class InputSummary:
     review_state: str
     replaced_by: str | None = None
     family: str | None = None
+    flags: tuple[dict[str, Any], ...] = ()
 
     def as_dict(self) -> dict[str, Any]:
         return {
@@ -75,6 +76,9 @@ class InputSummary:
             "surface": self.surface,
             "review_state": self.review_state,
             "replaced_by": self.replaced_by,
+            "quality_flags": [
+                {k: f.get(k) for k in ("code", "level", "message")} for f in self.flags
+            ],
         }
 
 
@@ -98,6 +102,20 @@ class ServedTable:
     def deprecated_inputs(self) -> list[str]:
         return [i.content_hash for i in self.inputs if i.review_state == "deprecated"]
 
+    @property
+    def flagged_inputs(self) -> list[dict[str, Any]]:
+        """Inputs carrying quality flags: revision, airfoil, flag codes, and the worst level."""
+        return [
+            {
+                "revision": i.content_hash,
+                "airfoil": i.airfoil,
+                "flags": [f["code"] for f in i.flags],
+                "level": "error" if any(f["level"] == "error" for f in i.flags) else "warning",
+            }
+            for i in self.inputs
+            if i.flags
+        ]
+
     def meta(self) -> dict[str, Any]:
         """The metadata every derived response carries (JSON-able)."""
         meta: dict[str, Any] = {
@@ -108,6 +126,7 @@ class ServedTable:
             "inputs": [i.as_dict() for i in self.inputs],
             "draws_on_deprecated": bool(self.deprecated_inputs),
             "deprecated_inputs": self.deprecated_inputs,
+            "flagged_inputs": self.flagged_inputs,
             "reports": self.reports,
             "conventions": {
                 "alpha": "deg",
@@ -152,6 +171,7 @@ def _summary(revision: PolarRevision) -> InputSummary:
         review_state=revision.review_state,
         replaced_by=revision.replaced_by.content_hash if revision.replaced_by else None,
         family=revision.airfoil.family.name if revision.airfoil.family else None,
+        flags=tuple(polar_store.revision_flags(revision)),
     )
 
 
@@ -299,6 +319,7 @@ def compute_and_store(
         load_revision=load_revision,
         load_blade=(lambda _hash: definition) if definition is not None else None,
         family_cache=PREPARED_FAMILIES.get,
+        airfoils={s.content_hash: s.airfoil for s in inputs.summaries},
         load_derived=load_derived,
     )
     # the reports are served as computed (orjson encodes numpy values in responses) and
@@ -365,18 +386,26 @@ TABLE_COLUMNS = ("alpha_deg", "cl", "cd", "cm")
 def select_family_members(
     session: Session, *, family: str, surface: str, approved_only: bool
 ) -> list[PolarRevision]:
-    """The revisions a family blend or blade set draws on.
+    """The revisions a family blend or blade set draws on by default.
 
-    For each (airfoil, Reynolds number, surface) the current revision is taken: not
-    superseded by another candidate, and not deprecated while a non-deprecated one exists
-    (a deprecated revision is used only where nothing else holds that condition, and the
-    response says so). With ``approved_only`` only approved revisions are candidates.
+    Candidates: revisions of the family's airfoils that are not retired from blends, with
+    the surface condition and a Reynolds number, not deprecated (a deprecated revision
+    leaves the default selection; it can still be served alone by its hash). For each
+    (airfoil, Reynolds number) the current revision is taken: not superseded by another
+    candidate, else the newest. With ``approved_only`` only approved revisions are
+    candidates.
     """
     family_row = get_family(session, family)
     statement = (
         select(PolarRevision)
         .join(Airfoil)
-        .where(Airfoil.family_id == family_row.id, PolarRevision.surface == surface)
+        .where(
+            Airfoil.family_id == family_row.id,
+            Airfoil.retired_at.is_(None),
+            PolarRevision.surface == surface,
+            PolarRevision.review_state != "deprecated",
+            PolarRevision.reynolds.is_not(None),
+        )
         .options(*(defer(getattr(PolarRevision, c)) for c in TABLE_COLUMNS))
         .order_by(Airfoil.thickness, PolarRevision.reynolds, PolarRevision.id)
     )
@@ -390,20 +419,17 @@ def select_family_members(
             continue
         key = (revision.airfoil_id, revision.reynolds)
         current = chosen.get(key)
-        if current is None or _preference(revision) >= _preference(current):
+        if current is None or revision.id >= current.id:
             chosen[key] = revision
     if not chosen:
         qualifier = "approved " if approved_only else ""
         raise InsufficientDataError(
-            f"family {family!r} has no {qualifier}revisions with surface {surface!r}"
+            f"family {family!r} has no {qualifier}revisions with surface {surface!r} "
+            "(deprecated revisions and retired airfoils are left out)"
         )
     return sorted(
         chosen.values(), key=lambda r: (r.airfoil.thickness, r.reynolds or 0.0, r.id)
     )
-
-
-def _preference(revision: PolarRevision) -> tuple[int, int]:
-    return (0 if revision.review_state == "deprecated" else 1, revision.id)
 
 
 # -- the served kinds ----------------------------------------------------------------------
@@ -685,6 +711,7 @@ def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str
         recipe = derived_store.derived_recipe(row)
         problems: list[str] = []
         polars = {}
+        airfoils = {r.content_hash: r.airfoil.name for r in row.inputs}
         for revision in row.inputs:
             try:
                 polar_store.verify_revision(revision)
@@ -710,6 +737,7 @@ def _verify_recipe(factory: sessionmaker[Session], recipe_hash: str) -> dict[str
             recipe,
             load_revision=polars.__getitem__,
             load_blade=(lambda _h: definition) if definition is not None else None,
+            airfoils=airfoils,
         )
         recomputed_hash = result_hash(result)
         if recomputed_hash != stored_hash:

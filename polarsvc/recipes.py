@@ -332,12 +332,16 @@ def prepared_family(
     recipe: Mapping[str, Any],
     load_revision: Callable[[str], aero.Polar],
     family_cache: FamilyCache | None = None,
+    airfoils: Mapping[str, str] | None = None,
 ) -> aero.PreparedFamily:
     """The recipe's family members extended and resampled once
     (:func:`polarsvc.aero.prepare_family`), through ``family_cache`` when given: the same
-    members and extension settings serve every blade and blend."""
+    members and extension settings serve every blade and blend. ``airfoils`` (airfoil name
+    by revision hash) groups the members by airfoil."""
     hashes = list(recipe["inputs"]["revisions"])
     keywords = _prepare_keywords(recipe["params"])
+    if airfoils is not None:
+        keywords["airfoils"] = [airfoils[h] for h in hashes]
 
     def make() -> aero.PreparedFamily:
         return aero.prepare_family([load_revision(h) for h in hashes], **keywords)
@@ -356,6 +360,7 @@ def blend_family(family: aero.PreparedFamily, params: Mapping[str, Any]) -> Deri
     tables = aero.build_blade_tables(
         family, stations, rotor_radius_m=1.0, rotation_model=None,
         thickness_method=params["thickness_method"], clamp=bool(params["clamp"]),
+        dynamic_stall=False,
     )
     report = {
         key: value
@@ -532,6 +537,7 @@ def execute_recipe(
     load_revision: Callable[[str], aero.Polar],
     load_blade: Callable[[str], Mapping[str, Any]] | None = None,
     family_cache: FamilyCache | None = None,
+    airfoils: Mapping[str, str] | None = None,
     load_derived: Callable[[str], DerivedResult] | None = None,
 ) -> DerivedResult:
     """Compute the table a recipe describes.
@@ -547,6 +553,9 @@ def execute_recipe(
     family_cache : callable, optional
         Reuses prepared families across recipes (see :func:`prepared_family`); without it
         everything is computed afresh (as verification does).
+    airfoils : mapping, optional
+        Airfoil name by revision hash: family members are then grouped by airfoil (each
+        airfoil's Reynolds interpolation uses its own tables) and errors name the airfoil.
     load_derived : callable, optional
         Returns a derived table already at hand by recipe hash (the blade set of a rotor
         recipe); without it the blade set is computed from its recipe.
@@ -570,7 +579,8 @@ def execute_recipe(
             tables = load_derived(recipe["inputs"]["blade_set"])
         else:
             tables = execute_recipe(tables_recipe, load_revision=load_revision,
-                                    load_blade=load_blade, family_cache=family_cache)
+                                    load_blade=load_blade, family_cache=family_cache,
+                                    airfoils=airfoils)
         blade = load_blade(recipe["inputs"]["blade"])
         assert tables.alpha_deg is not None
         arrays, reports = performance.compute_performance(
@@ -578,7 +588,7 @@ def execute_recipe(
             params["rotor"],
         )
         return DerivedResult(alpha_deg=None, columns=arrays, reports=reports)
-    family = prepared_family(recipe, load_revision, family_cache)
+    family = prepared_family(recipe, load_revision, family_cache, airfoils)
     if kind == "blended":
         return blend_family(family, params)
     if load_blade is None:

@@ -49,6 +49,7 @@ from polarsvc.aero.characteristics import (
 )
 from polarsvc.aero.errors import (
     InsufficientDataError,
+    OutOfRangeError,
     ParameterError,
     UnknownMethodError,
     show_value,
@@ -195,8 +196,10 @@ class PreparedFamily:
 
     ``tables`` ``(m, n_columns, n_angles)`` holds the members ordered by thickness, then
     Reynolds number; ``groups`` holds per thickness in ``thicknesses`` (increasing) the
-    increasing Reynolds numbers and the slice of ``tables`` of its members;
-    ``measured_deg`` ``(m, 2)`` the measured angle range of each member.
+    increasing Reynolds numbers and the slice of ``tables`` of its members: one group per
+    airfoil, whose Reynolds interpolation uses that airfoil's own tables only. ``labels``
+    names each group in errors and reports (e.g. ``"airfoil 'SKUA-250' (t/c 0.25)"``).
+    ``measured_deg`` ``(m, 2)`` holds the measured angle range of each member.
     """
 
     alpha_deg: FloatArray
@@ -206,6 +209,13 @@ class PreparedFamily:
     columns: tuple[str, ...]
     recipe: dict[str, Any]
     measured_deg: FloatArray
+    labels: tuple[str, ...] = ()
+
+    def label(self, group: int) -> str:
+        """The name of a thickness group in messages."""
+        if group < len(self.labels):
+            return self.labels[group]
+        return f"the member at t/c {float(self.thicknesses[group]):g}"
 
 
 def prepare_family(
@@ -219,24 +229,35 @@ def prepare_family(
     trailing_edge_lift_factor: float = 0.7,
     extension_step_deg: float = 1.0,
     trailing_edge_drag: str = DEFAULT_TRAILING_EDGE_DRAG,
+    airfoils: Sequence[str] | None = None,
 ) -> PreparedFamily:
     """Steps 1-3 of the pipeline: filter by surface condition, extend each member once
     (:func:`~polarsvc.aero.extension.extend_full_range`, same keywords) and resample each
     once onto the uniform grid of ``grid_step_deg`` [deg] over -180..180.
+
+    ``airfoils`` (one name per member, optional) groups the members by airfoil for the
+    Reynolds interpolation and names them in errors; without it members are grouped by
+    thickness.
 
     Raises
     ------
     InsufficientDataError
         No member of the surface condition.
     ParameterError
-        A member without thickness or Reynolds number; two members at the same pair.
+        A member without thickness or Reynolds number; two members at the same pair; two
+        airfoils of the same thickness.
     """
+    if airfoils is not None and len(airfoils) != len(members):
+        raise ParameterError("airfoils", "must name each member")
+    names = list(airfoils) if airfoils is not None else [None] * len(members)
+    chosen_names = [n for p, n in zip(members, names, strict=True) if p.surface == surface]
     chosen = [p for p in members if p.surface == surface]
     if not chosen:
         raise InsufficientDataError(f"no family member has surface condition {surface!r}")
     for index, p in enumerate(chosen):
         if p.thickness is None or p.reynolds is None:
-            raise ParameterError("members", f"member {index} lacks thickness or Reynolds number")
+            who = f"airfoil {chosen_names[index]!r}" if chosen_names[index] else f"member {index}"
+            raise ParameterError("members", f"{who} lacks thickness or Reynolds number")
     grid = uniform_grid(grid_step_deg)
     tables = [
         resample(
@@ -254,19 +275,38 @@ def prepare_family(
         for p in chosen
     ]
     columns = ("cl", "cd", "cm") if all(t.cm is not None for t in tables) else ("cl", "cd")
-    thicknesses = sorted({float(t.thickness) for t in tables if t.thickness is not None})
+    group_keys: dict[Any, float] = {}
+    for table, name in zip(tables, chosen_names, strict=True):
+        key = name if name is not None else float(table.thickness or 0.0)
+        if group_keys.setdefault(key, float(table.thickness or 0.0)) != table.thickness:
+            raise ParameterError("members", f"airfoil {name!r} has tables at two thicknesses")
+    by_thickness: dict[float, Any] = {}
+    for key, thickness in group_keys.items():
+        if thickness in by_thickness:
+            raise ParameterError(
+                "members",
+                f"airfoils {by_thickness[thickness]!r} and {key!r} share t/c {thickness:g}; "
+                "retire one of them from blends or move it to another family",
+            )
+        by_thickness[thickness] = key
+    thicknesses = sorted(by_thickness)
     groups = []
+    labels = []
     ordered: list[Polar] = []
     for thickness in thicknesses:
+        key = by_thickness[thickness]
         group = sorted(
-            (t for t in tables if t.thickness == thickness), key=lambda t: float(t.reynolds or 0)
+            (t for t, n in zip(tables, chosen_names, strict=True)
+             if (n if n is not None else float(t.thickness or 0.0)) == key),
+            key=lambda t: float(t.reynolds or 0),
         )
+        label = (f"airfoil {key!r} (t/c {thickness:g})" if isinstance(key, str)
+                 else f"the member at t/c {thickness:g}")
         keys = np.array([t.reynolds for t in group], dtype=np.float64)
         if np.unique(keys).size != keys.size:
-            raise ParameterError(
-                "members", f"two members at t/c {thickness:g} share a Reynolds number"
-            )
+            raise ParameterError("members", f"two tables of {label} share a Reynolds number")
         groups.append((keys, slice(len(ordered), len(ordered) + len(group))))
+        labels.append(label)
         ordered.extend(group)
     stack = np.asarray([[getattr(t, c) for c in columns] for t in ordered], dtype=np.float64)
     measured = np.asarray([measured_range(t) for t in ordered], dtype=np.float64)
@@ -282,7 +322,8 @@ def prepare_family(
         "members": len(chosen),
     }
     return PreparedFamily(
-        grid, np.asarray(thicknesses), tuple(groups), stack, columns, recipe, measured
+        grid, np.asarray(thicknesses), tuple(groups), stack, columns, recipe, measured,
+        tuple(labels),
     )
 
 
@@ -376,16 +417,30 @@ def build_blade_tables(
     log_re = np.log10(blade.reynolds)
     values = family.thicknesses
     t_weights = bracket_weights(values, blade.thickness, clamp=clamp, parameter="thickness")
+    pchip = thickness_method == "pchip" and values.size > 1
+    bracketing = _bracketing(t_weights, values.size, blade.size)
     reynolds_reports = []
     re_pairs = []
-    for thickness, (keys, rows) in zip(values, family.groups, strict=True):
+    for group, (thickness, (keys, rows)) in enumerate(zip(values, family.groups, strict=True)):
+        # every station's weights are computed (clamped); only the stations this member
+        # brackets in thickness must lie within its Reynolds range
         weights = bracket_weights(
-            np.log10(keys), log_re, clamp=clamp, parameter="reynolds", shown_as=from_log10
+            np.log10(keys), log_re, clamp=True, parameter="reynolds", shown_as=from_log10
         )
+        outside = weights.clamped & bracketing[group]
+        if outside.any() and not clamp:
+            station = int(np.flatnonzero(outside)[0])
+            raise OutOfRangeError(
+                "reynolds", float(blade.reynolds[station]), float(keys[0]), float(keys[-1]),
+                subject=family.label(group),
+            )
+        used = bracketing[group] | pchip  # PCHIP draws on every member
         index, weight = _pairs(weights)
         re_pairs.append((index + rows.start, weight))  # indices into family.tables
-        reynolds_reports.append((float(thickness), keys, weights))
-    if thickness_method == "pchip" and values.size > 1:
+        reynolds_reports.append(
+            (float(thickness), keys, weights, used, weights.clamped & bracketing[group])
+        )
+    if pchip:
         per_thickness = np.stack(
             [_combine(family.tables, index, weight) for index, weight in re_pairs]
         )
@@ -541,9 +596,19 @@ def _augment_then_extend(
     return out_cl, out_cd, out_cm, {k: np.asarray(v) for k, v in report.items()}
 
 
+def _bracketing(t_weights: Any, groups: int, stations: int) -> NDArray[np.bool_]:
+    """``(groups, stations)``: whether each thickness group carries a non-zero weight at
+    each station."""
+    uses = np.zeros((groups, stations), dtype=bool)
+    columns = np.arange(stations)
+    uses[t_weights.lower, columns] |= t_weights.weight_lower > 0.0
+    uses[t_weights.upper, columns] |= t_weights.weight_upper > 0.0
+    return uses
+
+
 def _station_reports(
     blade: BladeStations,
-    reynolds_reports: list[tuple[float, FloatArray, Any]],
+    reynolds_reports: list[tuple[float, FloatArray, Any, Any, Any]],
     thicknesses: FloatArray,
     t_weights: Any,
     rotation: dict[str, Any],
@@ -569,9 +634,10 @@ def _station_reports(
             thickness,
             np.where(w.clamped, np.clip(blade.reynolds, keys[0], keys[-1]), blade.reynolds)
             .tolist(),
-            w.clamped.tolist(),
+            clamped.tolist(),
+            used.tolist(),
         )
-        for thickness, keys, w in reynolds_reports
+        for thickness, keys, w, used, clamped in reynolds_reports
     ]
     re_pairs = [
         (
@@ -581,7 +647,7 @@ def _station_reports(
             w.weight_lower.tolist(),
             w.weight_upper.tolist(),
         )
-        for _, keys, w in reynolds_reports
+        for _, keys, w, _, _ in reynolds_reports
     ]
     flags = rotation.get("flags")
     rot = {k: v.tolist() for k, v in rotation.items() if k != "flags"}
@@ -605,9 +671,11 @@ def _station_reports(
             "thickness_clamped": t_clamped[s],
             "thickness_weights": thickness_weights,
             "reynolds_requested": blade.reynolds[s].item(),
-            "reynolds_used": {str(t): used[s] for t, used, _ in per_member},
+            "reynolds_used": {
+                str(t): used[s] for t, used, _, member_used in per_member if member_used[s]
+            },
             "reynolds_weights": reynolds_weights,
-            "reynolds_clamped": any(clamped[s] for _, _, clamped in per_member),
+            "reynolds_clamped": any(clamped[s] for _, _, clamped, _ in per_member),
         }
         report["measured_range_deg"] = measured_list[s]
         if rot:

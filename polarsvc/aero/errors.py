@@ -81,13 +81,17 @@ class ParameterError(AeroError):
 class OutOfRangeError(AeroError):
     """A requested Reynolds number or thickness lies outside the data and clamping was not asked."""
 
-    def __init__(self, parameter: str, value: float, low: float, high: float):
+    def __init__(
+        self, parameter: str, value: float, low: float, high: float, subject: str | None = None
+    ):
         self.parameter = parameter
         self.value = value
         self.low = low
         self.high = high
+        self.subject = subject
+        of = f" of {subject}" if subject else ""
         super().__init__(
-            f"{parameter}={show_value(value)} lies outside the data range "
+            f"{parameter}={show_value(value)} lies outside the data range{of} "
             f"[{show_value(low)}, {show_value(high)}]; "
             "pass clamp=True to use the nearest member (the result records the clamp)"
         )

@@ -136,8 +136,14 @@ def _detail_response(status: int, detail: object, **extra: object):
 def _install_error_handlers(app: FastAPI) -> None:
     @app.exception_handler(FormatError)
     async def format_error(_: Request, exc: FormatError):
+        extra = {}
+        if getattr(exc, "file", None) is not None:
+            extra["file"] = exc.file
+        if getattr(exc, "flags", None) is not None:
+            extra["quality_flags"] = exc.flags  # a refusal by quality checks
         return _detail_response(
-            422, str(exc), line=getattr(exc, "line", None), field=getattr(exc, "field", None)
+            422, str(exc), line=getattr(exc, "line", None), field=getattr(exc, "field", None),
+            **extra,
         )
 
     @app.exception_handler(OutOfRangeError)

@@ -48,6 +48,44 @@ class ReviewChange(StrictModel):
     state: Literal["approved", "deprecated"]
     reason: FreeText | None = None
     replaced_by: Annotated[str, Field(min_length=8, max_length=64)] | None = None
+    replacement_reason: Annotated[str, Field(max_length=4000)] | None = Field(
+        default=None,
+        description="why a replacement at other conditions (airfoil, Reynolds number, Mach "
+        "number, surface) is right; required in that case",
+    )
+
+
+Reason = Annotated[str, Field(min_length=1, max_length=4000, description="kept in the audit")]
+
+
+class AirfoilMove(StrictModel):
+    """Move an airfoil to another existing family (``null``: out of any family)."""
+
+    family: Annotated[str, Field(min_length=1, max_length=200)] | None
+    reason: Reason
+
+
+class AirfoilRename(StrictModel):
+    """Rename an airfoil; the former name stays as an alias that still resolves."""
+
+    new_name: Annotated[str, Field(min_length=1, max_length=200)]
+    reason: Reason
+
+
+class AirfoilRetirement(StrictModel):
+    """Retire an airfoil from family blends and blade sets, or reinstate it."""
+
+    reason: Reason
+
+
+class ProvenanceCorrection(StrictModel):
+    """Corrected provenance fields (only those that change) of a revision."""
+
+    provenance: dict[
+        Literal["source_kind", "reference", "facility", "measured_on", "contributor", "notes"],
+        Annotated[str, Field(max_length=4000)] | None,
+    ]
+    reason: Reason
 
 
 class FamilyIn(StrictModel):

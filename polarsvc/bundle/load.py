@@ -147,6 +147,8 @@ def _restore(session: Session, content: _Content, actor: Actor) -> None:
                     state=item.review_state,
                     reason=item.review_reason,
                     replaced_by_hash=item.replaced_by,
+                    # the decision was accepted where the bundle was written
+                    replacement_reason="as recorded in the bundle",
                     actor=actor,
                 )
             except StoreError as exc:

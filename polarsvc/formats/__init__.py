@@ -16,10 +16,10 @@ A text table is UTF-8 (a byte-order mark is allowed) with one polar per file::
     -4.0,-0.21,0.0081,-0.071
     0.0,0.25,0.0072,-0.082
 
-* Layout: CSV (comma), TSV (tab) or whitespace-separated. Detected from the first
-  non-comment line (a tab means TSV, else a comma means CSV, else whitespace), or stated with
-  ``layout=`` ("csv", "tsv", "whitespace"), a ``.csv``/``.tsv`` file name or the content
-  type ``text/csv`` / ``text/tab-separated-values``.
+* Layout: CSV (comma), TSV (tab) or whitespace-separated. Always detected from the first
+  non-comment line (a tab means TSV, else a comma means CSV, else whitespace), whatever text
+  content type or file name is declared; only ``layout=`` ("csv", "tsv", "whitespace")
+  states it.
 * Blank lines are skipped. A line whose first non-blank character is ``#`` is a comment.
   A comment of the form ``# key: value`` where ``key`` is one word (letters, digits,
   underscore) is metadata and the key must be one of :data:`METADATA_KEYS`:
@@ -31,12 +31,19 @@ A text table is UTF-8 (a byte-order mark is allowed) with one polar per file::
   YYYY-MM-DD); ``contributor``; ``notes``; ``angle_unit`` (deg or rad). A key given twice with
   different values is refused. Other comments are free text.
 * Header: the first non-comment line is a header when any of its cells is not a number.
-  Names (case-insensitive, see :data:`COLUMN_NAMES`): ``alpha_deg`` (also ``aoa_deg``,
-  ``angle_of_attack_deg``), ``alpha_rad`` (also ``aoa_rad``, ``angle_of_attack_rad``;
-  converted to degrees), ``cl`` (``lift_coefficient``), ``cd`` (``drag_coefficient``),
-  ``cm`` (``moment_coefficient``, optional). An angle column named only ``alpha``, ``aoa`` or
-  ``angle_of_attack`` needs ``# angle_unit: deg|rad`` (or ``angle_unit=`` from the caller).
-  Unknown or repeated columns are refused.
+  Names are case-insensitive; spaces and hyphens count as ``_`` (see :data:`COLUMN_NAMES`):
+
+  - angle: ``alpha``, ``aoa``, ``angle``, ``angle_of_attack``, ``incidence``, each with a
+    unit suffix ``_deg``/``_rad`` or a unit written ``(deg)``, ``[deg]``, `` deg`` (radians
+    are converted to degrees). Without a unit in the name the unit is ``angle_unit``
+    (``# angle_unit: deg|rad`` or from the caller), else degrees, recorded as a warning
+    flag (angles that are really radians are caught by the lift-slope check);
+  - lift: ``cl``, ``c_l``, ``lift``, ``lift_coefficient``, ``cl_lift``;
+  - drag: ``cd``, ``c_d``, ``drag``, ``drag_coefficient``, ``cd_drag``;
+  - moment (optional): ``cm``, ``c_m``, ``moment``, ``moment_coefficient``,
+    ``pitching_moment``, ``cm_c4``, ``cm_quarter_chord``.
+
+  A coefficient name may end in ``(-)`` or ``[-]``. Unknown or repeated columns are refused.
 * Without a header the columns are alpha, cl, cd[, cm] in that order, and only when the angle
   unit is stated (``# angle_unit: deg``); otherwise the file is refused.
 * Cells are plain decimal numbers (``-1.5``, ``2e-3``); NaN, infinity, a decimal comma and
@@ -136,10 +143,11 @@ _CONTENT_TYPES: dict[str, str | None] = {
 }
 """Accepted content types and the layout each states (None: detect)."""
 
-_EXTENSIONS = {".csv": "csv", ".tsv": "tsv", ".json": "json"}
-
 
 def _layout_from(content_type: str | None, filename: str | None) -> str | None:
+    """``"json"`` when the content type or file name says JSON, else None: the delimiter of
+    a text table is always detected from its first line, whatever text type is declared
+    (a whitespace table sent as ``text/csv`` is read as whitespace)."""
     if content_type:
         media = content_type.split(";", 1)[0].strip().lower()
         if media not in _CONTENT_TYPES:
@@ -148,12 +156,10 @@ def _layout_from(content_type: str | None, filename: str | None) -> str | None:
                 f"{', '.join(_CONTENT_TYPES)}",
                 field="content_type",
             )
-        if _CONTENT_TYPES[media] is not None:
-            return _CONTENT_TYPES[media]
-    if filename:
-        for extension, layout in _EXTENSIONS.items():
-            if filename.lower().endswith(extension):
-                return layout
+        if _CONTENT_TYPES[media] == "json":
+            return "json"
+    if filename and filename.lower().endswith(".json"):
+        return "json"
     return None
 
 

@@ -60,6 +60,15 @@ class ParsedPolar:
         Keys :data:`PROVENANCE_KEYS`; values are strings or None.
     source_line : int
         One-based line of the first data row (of the object's opening brace for JSON).
+    row_sources : tuple of int
+        For each row of ``polar`` (sorted by angle, repeated identical rows merged), its
+        zero-based index in the table as given.
+    row_lines : tuple of int or None
+        For each row of ``polar``, its one-based file line (None for JSON documents).
+    mach_stated : bool
+        Whether the file (or the caller's defaults) stated the Mach number.
+    angle_unit_assumed : bool
+        Whether the angle column had no unit anywhere and degrees were assumed.
     """
 
     airfoil: str
@@ -67,6 +76,30 @@ class ParsedPolar:
     polar: Polar
     provenance: dict[str, object]
     source_line: int
+    row_sources: tuple[int, ...] = ()
+    row_lines: tuple[int, ...] | None = None
+    mach_stated: bool = True
+    angle_unit_assumed: bool = False
+
+    def locate(self, row: int | None, field: str | None) -> tuple[int | None, str | None]:
+        """File line and field of a row of ``polar`` (JSON: the object's line and
+        ``field[index]``)."""
+        if row is None or row >= len(self.row_sources):
+            return (self.source_line if field in (None, "alpha_deg", "cl", "cd", "cm")
+                    else None), field
+        if self.row_lines is not None:
+            return self.row_lines[row], field
+        return self.source_line, f"{field}[{self.row_sources[row]}]"
+
+
+def _stored_row_sources(alpha_deg: np.ndarray) -> tuple[int, ...]:
+    """Original indices of the rows :class:`Polar` keeps: sorted by angle (stable), the first
+    of rows repeating an angle (Polar merges identical repeats and refuses others)."""
+    order = np.argsort(np.asarray(alpha_deg, dtype=np.float64), kind="stable")
+    ordered = np.asarray(alpha_deg, dtype=np.float64)[order]
+    keep = np.ones(order.size, dtype=bool)
+    keep[1:] = np.diff(ordered) != 0.0
+    return tuple(int(i) for i in order[keep])
 
 
 def parse_number(text: str, *, line: int | None, field: str) -> float:
@@ -195,6 +228,7 @@ def build_parsed_polar(
     coefficients: Mapping[str, np.ndarray],
     row_lines: list[int] | None,
     source_line: int,
+    angle_unit_assumed: bool = False,
 ) -> ParsedPolar:
     """Validate the table through :class:`Polar` and wrap it as a :class:`ParsedPolar`.
 
@@ -239,10 +273,15 @@ def build_parsed_polar(
             field=exc.parameter,
         ) from None
     family = metadata.get("family")
+    sources = _stored_row_sources(alpha_deg)
     return ParsedPolar(
         airfoil=str(airfoil),
         family=None if family is None else str(family),
         polar=polar,
         provenance={key: metadata.get(key) for key in PROVENANCE_KEYS},
         source_line=source_line,
+        row_sources=sources,
+        row_lines=None if row_lines is None else tuple(row_lines[i] for i in sources),
+        mach_stated=metadata.get("mach") is not None,
+        angle_unit_assumed=angle_unit_assumed,
     )

@@ -14,25 +14,57 @@ from polarsvc.formats.metadata import ParsedPolar, build_parsed_polar, normalise
 TEXT_LAYOUTS: tuple[str, ...] = ("csv", "tsv", "whitespace")
 """Valid names of the text layouts."""
 
-COLUMN_NAMES: dict[str, str] = {
-    "alpha_deg": "alpha_deg",
-    "aoa_deg": "alpha_deg",
-    "angle_of_attack_deg": "alpha_deg",
-    "alpha_rad": "alpha_rad",
-    "aoa_rad": "alpha_rad",
-    "angle_of_attack_rad": "alpha_rad",
-    "alpha": "alpha",
-    "aoa": "alpha",
-    "angle_of_attack": "alpha",
-    "cl": "cl",
-    "lift_coefficient": "cl",
-    "cd": "cd",
-    "drag_coefficient": "cd",
-    "cm": "cm",
-    "moment_coefficient": "cm",
+ANGLE_SPELLINGS: tuple[str, ...] = ("alpha", "aoa", "angle", "angle_of_attack", "incidence")
+"""Accepted names of the angle column, each alone (unit: ``angle_unit``, else degrees with a
+warning flag) or with a unit suffix ``_deg`` / ``_rad`` (also written ``(deg)``, ``[deg]`` or
+`` deg``)."""
+
+COEFFICIENT_SPELLINGS: dict[str, tuple[str, ...]] = {
+    "cl": ("cl", "c_l", "lift", "lift_coefficient", "cl_lift"),
+    "cd": ("cd", "c_d", "drag", "drag_coefficient", "cd_drag"),
+    "cm": ("cm", "c_m", "moment", "moment_coefficient", "pitching_moment", "cm_c4",
+           "cm_quarter_chord"),
 }
-"""Accepted header names (lower case) and the column each one means. ``alpha`` has no unit
-and needs ``angle_unit``."""
+"""Accepted names of the coefficient columns (dimensionless; a ``(-)`` or ``[-]`` suffix is
+allowed)."""
+
+
+def _column_names() -> dict[str, str]:
+    names: dict[str, str] = {}
+    for spelling in ANGLE_SPELLINGS:
+        names[spelling] = "alpha"
+        names[f"{spelling}_deg"] = "alpha_deg"
+        names[f"{spelling}_rad"] = "alpha_rad"
+    for column, spellings in COEFFICIENT_SPELLINGS.items():
+        for spelling in spellings:
+            names[spelling] = column
+    return names
+
+
+COLUMN_NAMES: dict[str, str] = _column_names()
+"""Accepted header names (after :func:`header_key`) and the column each one means:
+``alpha_deg``, ``alpha_rad``, ``alpha`` (no unit), ``cl``, ``cd``, ``cm``."""
+
+_UNIT_SUFFIX = re.compile(
+    r"\s*(?:[(\[]\s*(?P<bracketed>deg|degrees|rad|radians|-)\s*[)\]]|\s(?P<bare>deg|rad))$"
+)
+_UNITS = {"deg": "deg", "degrees": "deg", "rad": "rad", "radians": "rad"}
+
+
+def header_key(cell: str) -> str:
+    """A header cell reduced to the key looked up in :data:`COLUMN_NAMES`: lower case,
+    quotes dropped, a unit in brackets or after a space turned into a ``_deg``/``_rad``
+    suffix (``"Alpha (deg)"`` -> ``alpha_deg``), spaces and hyphens turned into ``_``."""
+    name = cell.strip().strip('"').strip().lower()
+    match = _UNIT_SUFFIX.search(name)
+    suffix = ""
+    if match is not None:
+        unit = match.group("bracketed") or match.group("bare")
+        name = name[: match.start()]
+        suffix = "" if unit == "-" else "_" + _UNITS[unit]
+    name = re.sub(r"[\s\-]+", "_", name.strip())
+    return name + suffix
+
 
 POSITIONAL_COLUMNS: tuple[str, ...] = ("alpha", "cl", "cd", "cm")
 
@@ -73,11 +105,12 @@ def _is_header(cells: list[str], line: int) -> bool:
 def _map_header(cells: list[str], line: int) -> list[str]:
     columns: list[str] = []
     for cell in cells:
-        name = cell.strip().strip('"').strip().lower()
+        name = header_key(cell)
         if name not in COLUMN_NAMES:
             hint = "; separate cells by commas, tabs or spaces" if ";" in cell else ""
             raise FormatError(
-                f"unknown column {shown(cell)}; accepted names: {', '.join(COLUMN_NAMES)}{hint}",
+                f"unknown column {shown(cell)}; accepted names: {', '.join(COLUMN_NAMES)} "
+                f"(a unit may follow as '(deg)', '[rad]'){hint}",
                 line=line,
                 field=cell,
             )
@@ -97,14 +130,9 @@ def _resolve_angle_column(columns: list[str], unit: str | None, line: int) -> tu
     """The angle column's name in ``columns`` and its unit ('deg' or 'rad')."""
     name = next(column for column in columns if column in _ANGLE_COLUMNS)
     if name == "alpha":
-        if unit is None:
-            raise FormatError(
-                "the angle column has no unit: name it 'alpha_deg' or 'alpha_rad', or add "
-                "'# angle_unit: deg' (or pass angle_unit)",
-                line=line,
-                field="alpha",
-            )
-        return name, unit
+        # no unit stated anywhere: degrees, recorded as assumed (a radian column is caught
+        # by the lift-slope check of polarsvc.aero.quality)
+        return name, unit or "deg"
     stated = name.removeprefix("alpha_")
     if unit is not None and unit != stated:
         raise FormatError(
@@ -197,6 +225,7 @@ def parse_text_table(
     table = {column: values[:, position] for position, column in enumerate(columns)}
     angle = table.pop(angle_name)
     alpha_deg = np.degrees(angle) if angle_unit == "rad" else angle
+    assumed = header is not None and angle_name == "alpha" and unit is None
     return [
         build_parsed_polar(
             metadata=merged,
@@ -205,5 +234,6 @@ def parse_text_table(
             coefficients=table,
             row_lines=[number for number, _ in rows],
             source_line=rows[0][0],
+            angle_unit_assumed=assumed,
         )
     ]

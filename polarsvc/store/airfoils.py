@@ -15,7 +15,7 @@ from polarsvc.hashing import canonical_json
 from polarsvc.store._lookup import check_name, check_text, escape_like
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue, NotFound
-from polarsvc.store.models import Airfoil, Family
+from polarsvc.store.models import Airfoil, AirfoilAlias, Family
 from polarsvc.store.paging import (
     DEFAULT_PAGE_SIZE,
     Page,
@@ -131,7 +131,9 @@ def create_airfoil(
     Raises
     ------
     Conflict
-        If an airfoil of that name exists with different attributes.
+        If an airfoil of that name exists with different attributes, the name is a former
+        name of another airfoil, or the family already holds an active airfoil of the same
+        thickness.
     InvalidValue
         On a bad name, thickness or outline.
     NotFound
@@ -153,6 +155,23 @@ def create_airfoil(
         "coordinates": coordinates_text,
     }
     existing = session.scalars(select(Airfoil).where(Airfoil.name == name)).one_or_none()
+    former = session.scalars(select(AirfoilAlias).where(AirfoilAlias.name == name)).first()
+    if existing is None and former is not None:
+        raise Conflict("airfoil", name, f"is a former name of airfoil {former.airfoil.name!r}")
+    if existing is None and family_row is not None:
+        twin = session.scalars(
+            select(Airfoil).where(
+                Airfoil.family_id == family_row.id,
+                Airfoil.thickness == thickness,
+                Airfoil.retired_at.is_(None),
+            )
+        ).first()
+        if twin is not None:
+            raise Conflict(
+                "airfoil", name,
+                f"family {family!r} already holds airfoil {twin.name!r} at t/c {thickness:g}; "
+                "blends could not tell them apart: retire it first, or use another family",
+            )
     if existing is None:
         airfoil = Airfoil(name=name, **wanted)
         try:
@@ -177,8 +196,13 @@ def create_airfoil(
 
 
 def get_airfoil(session: Session, name: str) -> Airfoil:
-    """The airfoil called ``name``; :class:`NotFound` otherwise."""
+    """The airfoil called ``name``, or whose former name (alias, after a rename) is
+    ``name``; :class:`NotFound` otherwise."""
     airfoil = session.scalars(select(Airfoil).where(Airfoil.name == name)).one_or_none()
+    if airfoil is None:
+        airfoil = session.scalars(
+            select(Airfoil).join(AirfoilAlias).where(AirfoilAlias.name == name)
+        ).one_or_none()
     if airfoil is None:
         raise NotFound("airfoil", name)
     return airfoil

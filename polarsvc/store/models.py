@@ -120,8 +120,31 @@ class Airfoil(Base):
     description: Mapped[str] = mapped_column(Text, default="")
     coordinates: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
+    retired_at: Mapped[dt.datetime | None] = mapped_column(UTCDateTime)
+    retired_reason: Mapped[str | None] = mapped_column(Text)
 
     family: Mapped[Family | None] = relationship(back_populates="airfoils")
+    aliases: Mapped[list[AirfoilAlias]] = relationship(
+        back_populates="airfoil", order_by="AirfoilAlias.id"
+    )
+
+    @property
+    def retired(self) -> bool:
+        """Whether the airfoil is retired from family blends (its data stay stored)."""
+        return self.retired_at is not None
+
+
+class AirfoilAlias(Base):
+    """A former name of an airfoil; it still resolves to the airfoil after a rename."""
+
+    __tablename__ = "airfoil_alias"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(NAME_LENGTH), unique=True)
+    airfoil_id: Mapped[int] = mapped_column(ForeignKey("airfoil.id"), index=True)
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
+
+    airfoil: Mapped[Airfoil] = relationship(back_populates="aliases")
 
 
 class PolarRevision(Base):
@@ -162,6 +185,8 @@ class PolarRevision(Base):
     review_state: Mapped[str] = mapped_column(String(16), default="draft")
     review_reason: Mapped[str | None] = mapped_column(Text)
     replaced_by_id: Mapped[int | None] = mapped_column(ForeignKey("polar_revision.id"))
+    quality_flags: Mapped[str | None] = mapped_column(Text)
+    quality_override: Mapped[str | None] = mapped_column(Text)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now)
     created_by: Mapped[str] = mapped_column(String(NAME_LENGTH))
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -11,9 +12,11 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session, aliased, contains_eager, defer, selectinload
 
 from polarsvc.aero.polar import Polar
+from polarsvc.aero.quality import table_flags
 from polarsvc.hashing import (
     PROVENANCE_FIELDS,
     canonical_array_bytes,
+    canonical_json,
     decode_array_bytes,
     polar_content_hash,
 )
@@ -102,7 +105,11 @@ def store_polar(
     polar: Polar,
     provenance: Mapping[str, Any],
     supersedes_hash: str | None = None,
+    quality_flags: Sequence[Mapping[str, Any]] | None = None,
+    quality_override: str | None = None,
     actor: Actor,
+    audit_action: str = "polar.store",
+    audit_detail: Mapping[str, Any] | None = None,
 ) -> tuple[PolarRevision, bool]:
     """Store a polar as a new draft revision, or return the identical stored one.
 
@@ -116,8 +123,17 @@ def store_polar(
         See :func:`normalise_provenance`.
     supersedes_hash : str, optional
         Full hash or unique prefix of the revision this one supersedes (same airfoil).
+    quality_flags : sequence of mappings, optional
+        The flags found at upload (:mod:`polarsvc.aero.quality`, as dicts, with the file
+        line where known); None computes the flags of the table alone. Stored with the
+        revision; nothing is refused here (the upload path refuses error-level flags).
+    quality_override : str, optional
+        Why a curator stored the table despite error-level flags (kept with the revision and
+        in the audit event).
     actor : Actor
         Recorded in the audit trail (one event when a revision is created, none otherwise).
+    audit_action, audit_detail
+        The action name of that event and extra detail (a correction records its own).
 
     Returns
     -------
@@ -159,6 +175,9 @@ def store_polar(
     existing = _by_full_hash(session, content_hash)
     if existing is not None:
         return existing, False
+    if quality_flags is None:
+        quality_flags = [f.as_dict() for f in table_flags(polar)]
+    flags = [dict(f) for f in quality_flags]
     revision = PolarRevision(
         content_hash=content_hash,
         airfoil=airfoil,
@@ -174,6 +193,8 @@ def store_polar(
         supersedes_id=None if superseded is None else superseded.id,
         review_state="draft",
         created_by=actor.name,
+        quality_flags=canonical_json(flags).decode("utf-8"),
+        quality_override=quality_override,
         **fields,
     )
     # the same content may be committed by a concurrent transaction (unique content_hash)
@@ -185,9 +206,10 @@ def store_polar(
     record_event(
         session,
         actor=actor,
-        action="polar.store",
+        action=audit_action,
         object_kind="polar_revision",
         object_key=content_hash,
+        before_hash=None if superseded is None else superseded.content_hash,
         after_hash=content_hash,
         detail={
             "airfoil": airfoil_name,
@@ -196,9 +218,26 @@ def store_polar(
             "surface": polar.surface,
             "rows": polar.size,
             "supersedes": None if superseded is None else superseded.content_hash,
+            "quality": {
+                "errors": [f["code"] for f in flags if f.get("level") == "error"],
+                "warnings": [f["code"] for f in flags if f.get("level") == "warning"],
+                "override": quality_override,
+            },
+            **dict(audit_detail or {}),
         },
     )
     return revision, True
+
+
+def revision_flags(revision: PolarRevision | RevisionSummary) -> list[dict[str, Any]]:
+    """The quality flags of a revision: as stored at upload, or (for revisions stored
+    before flags existed) computed from its table alone (a listing's summary, which holds
+    no table, shows none for those)."""
+    if revision.quality_flags is not None:
+        return list(json.loads(revision.quality_flags))
+    if not isinstance(revision, PolarRevision):
+        return []
+    return [f.as_dict() for f in table_flags(load_polar(revision))]
 
 
 def _by_full_hash(session: Session, content_hash: str) -> PolarRevision | None:
@@ -310,14 +349,22 @@ def table_of(session: Session, content_hash: str) -> dict[str, Any]:
 
 def verify_revision(revision: PolarRevision) -> str:
     """Recompute a stored revision's content hash; return it, or raise
-    :class:`IntegrityProblem` if it differs from the stored one."""
+    :class:`IntegrityProblem` if it differs from the stored one.
+
+    The hash holds the airfoil name the revision was stored under: the current name, or
+    after a rename one of the airfoil's former names (aliases)."""
     supersedes = revision.supersedes.content_hash if revision.supersedes is not None else None
-    recomputed = polar_content_hash(
-        load_polar(revision),
-        airfoil_name=revision.airfoil.name,
-        provenance=revision_provenance(revision),
-        supersedes_hash=supersedes,
-    )
+    polar = load_polar(revision)
+    names = [revision.airfoil.name, *(a.name for a in revision.airfoil.aliases)]
+    for name in names:
+        recomputed = polar_content_hash(
+            polar,
+            airfoil_name=name,
+            provenance=revision_provenance(revision),
+            supersedes_hash=supersedes,
+        )
+        if recomputed == revision.content_hash:
+            break
     if recomputed != revision.content_hash:
         raise IntegrityProblem(
             f"revision {revision.content_hash}: content now hashes to {recomputed}"
@@ -393,6 +440,11 @@ def list_revisions(
     then storage order. ``reynolds`` matches exactly. With ``with_tables=False`` the table
     columns are not read (they load on first access) and the relations a summary shows are
     loaded in bulk. For long listings use :func:`page_revisions`."""
+    if airfoil is not None:
+        try:
+            airfoil = get_airfoil(session, airfoil).name  # a former name resolves too
+        except NotFound:
+            return []
     statement = _revision_filters(
         select(PolarRevision).join(Airfoil), airfoil=airfoil, family=family,
         reynolds=reynolds, surface=surface, review_state=review_state,
@@ -454,12 +506,14 @@ class RevisionSummary:
     replaced_by: HashRef | None
     created_at: dt.datetime
     created_by: str
+    quality_flags: str | None = None
+    quality_override: str | None = None
 
 
 _SUMMARY_COLUMNS = (
     "id", "content_hash", "reynolds", "mach", "surface", "n_rows", "has_cm", "source_kind",
     "reference", "facility", "measured_on", "contributor", "notes", "review_state",
-    "review_reason", "created_at", "created_by",
+    "review_reason", "created_at", "created_by", "quality_flags", "quality_override",
 )
 
 
@@ -602,6 +656,7 @@ def set_review_state(
     state: str,
     reason: str | None = None,
     replaced_by_hash: str | None = None,
+    replacement_reason: str | None = None,
     actor: Actor,
 ) -> PolarRevision:
     """Move a revision through review: draft -> approved, draft/approved -> deprecated.
@@ -615,7 +670,11 @@ def set_review_state(
     reason : str, optional
         Why; required (non-blank) for deprecation.
     replaced_by_hash : str, optional
-        Only with deprecation: the revision that replaces this one.
+        Only with deprecation: the revision that replaces this one. It must hold the same
+        conditions (airfoil, Reynolds number, Mach number, surface), unless
+        ``replacement_reason`` says why another one replaces it.
+    replacement_reason : str, optional
+        Why a replacement at other conditions is right (recorded in the audit event).
 
     Raises
     ------
@@ -645,6 +704,14 @@ def set_review_state(
             raise NotFound("polar revision (replacement)", replaced_by_hash) from None
         if replacement.id == revision.id:
             raise InvalidTransition(key, current, state, "a revision cannot replace itself")
+        differences = _condition_differences(revision, replacement)
+        if differences and not (replacement_reason and replacement_reason.strip()):
+            raise InvalidTransition(
+                key, current, state,
+                f"replacement {replacement.content_hash[:12]} differs in "
+                f"{'; '.join(differences)}; name a revision of the same conditions or say "
+                "why in replacement_reason",
+            )
     revision.review_state = state
     revision.review_reason = reason
     revision.replaced_by_id = None if replacement is None else replacement.id
@@ -662,6 +729,19 @@ def set_review_state(
             "to": state,
             "reason": reason,
             "replaced_by": None if replacement is None else replacement.content_hash,
+            "replacement_reason": replacement_reason if replacement is not None else None,
         },
     )
     return revision
+
+
+def _condition_differences(revision: PolarRevision, other: PolarRevision) -> list[str]:
+    """The conditions in which ``other`` differs from ``revision``, as text."""
+    found = []
+    if other.airfoil_id != revision.airfoil_id:
+        found.append(f"airfoil {other.airfoil.name!r} instead of {revision.airfoil.name!r}")
+    for name in ("reynolds", "mach", "surface"):
+        mine, theirs = getattr(revision, name), getattr(other, name)
+        if mine != theirs:
+            found.append(f"{name} {theirs} instead of {mine}")
+    return found

@@ -137,7 +137,8 @@ def add_routes(router: APIRouter) -> None:
         notice: str = "",
     ) -> HTMLResponse:
         airfoil = airfoil_store.get_airfoil(session, name)
-        revisions = polar_store.list_revisions(session, airfoil=name, with_tables=False)
+        revisions = polar_store.list_revisions(session, airfoil=airfoil.name, with_tables=False)
+        flags = {r.id: polar_store.revision_flags(r) for r in revisions}
         selected = viewdata.choose_revision(airfoil, revisions, revision)
         inputs, problems = viewdata.parse_station_inputs(request.query_params)
         tables = plots = derived = None
@@ -164,6 +165,7 @@ def add_routes(router: APIRouter) -> None:
                 "title": airfoil.name,
                 "airfoil": airfoil,
                 "revisions": revisions,
+                "flags": flags,
                 "selected": selected,
                 "tables": tables,
                 "inputs": inputs,

@@ -18,6 +18,7 @@ from polarsvc.aero import (
     du_selig_factors,
     extend_full_range,
     fade_weight,
+    rotation,
     snel_factor,
 )
 
@@ -263,3 +264,171 @@ def test_property_correction_bounded(model, c_r, r_R, tsr, twist) -> None:
         assert np.all((change <= 1e-15) & (change >= -excess - 1e-15))
     else:
         assert np.all((change >= -1e-15) & (change <= excess + 1e-15))
+
+
+@pytest.mark.parametrize(
+    ("call", "parameter", "message"),
+    [
+        (lambda: snel_factor(-1.0), "chord_over_r", "must lie in (0, inf), got -1"),
+        (lambda: du_selig_factors(0.1, 1.5, 7.0), "r_over_R", "must lie in (0, 1], got 1.5"),
+        (lambda: du_selig_factors(0.1, 0.3, 0.0), "tip_speed_ratio", "got 0"),
+        (lambda: du_selig_factors(-0.1, 0.3, 7.0), "chord_over_r", "got -0.1"),
+        (lambda: augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3,
+                                  chord_over_r=0.1),
+         "tip_speed_ratio", "is required by the du-selig model"),
+        (lambda: chaviaropoulos_hansen_factor(0.2, math.nan), "twist_deg", "must be finite"),
+        (lambda: chaviaropoulos_hansen_factor(-0.2, 0.0), "chord_over_r", "got -0.2"),
+        (lambda: fade_weight([0.0], math.nan, 20.0), "fade_start_deg", "must be finite"),
+        (lambda: fade_weight([0.0], 20.0, 10.0), "fade_end_deg",
+         "must lie in (fade_start_deg, 90] deg, got 10"),
+        (lambda: fade_weight([0.0], 20.0, 95.0), "fade_end_deg", "got 95"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_end_deg=95.0),
+         "fade_end_deg", "must lie within 90 deg, got 95"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_start_deg=40.0, fade_end_deg=30.0),
+         "fade_end_deg", "must end after it starts and by 90 deg; got start 40 and end 30"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_start_offset_deg=math.inf),
+         "fade_start_offset_deg", "must be finite"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  fade_end_offset_deg=math.nan),
+         "fade_end_offset_deg", "must be finite"),
+        (lambda: augment_rotation(piecewise_polar(), r_over_R=0.3, chord_over_r=0.2,
+                                  cl_alpha_per_rad=-1.0),
+         "cl_alpha_per_rad", "must be a positive number, got -1"),
+    ],
+)
+def test_errors_name_the_parameter_and_the_rule(call, parameter: str, message: str) -> None:
+    with pytest.raises(ParameterError) as info:
+        call()
+    assert info.value.parameter == parameter
+    text = str(info.value)
+    assert text.startswith(f"parameter '{parameter}': ")
+    assert message in text
+    assert not text.endswith("XX")
+
+
+def test_unknown_model_names_the_valid_ones() -> None:
+    with pytest.raises(UnknownMethodError) as info:
+        augment_rotation(piecewise_polar(), "guess", r_over_R=0.3, chord_over_r=0.1)
+    assert str(info.value) == (
+        "model='guess' is not known; valid names: snel, du-selig, chaviaropoulos-hansen"
+    )
+    assert info.value.parameter == "model" and info.value.value == "guess"
+
+
+def test_history_step_records_every_setting() -> None:
+    # piecewise_polar with Snel at r/R 0.3, c/r 0.2 (factor 0.12, Snel et al. 1994), default
+    # twist 0 and fade; lift line 2 pi /rad through -2 deg (exact for this table)
+    step = augment_rotation(piecewise_polar(), "snel", r_over_R=0.3,
+                            chord_over_r=0.2).history[-1]
+    assert step == {
+        "step": "augment_rotation",
+        "model": "snel",
+        "r_over_R": 0.3,
+        "chord_over_r": 0.2,
+        "tip_speed_ratio": None,
+        "twist_deg": 0.0,
+        "lift_factor": pytest.approx(0.12, abs=1e-15),
+        "drag_factor": 0.0,
+        "cl_alpha_per_rad": pytest.approx(2.0 * math.pi, abs=1e-9),
+        "alpha0_deg": pytest.approx(-2.0, abs=1e-9),
+        "stall_deg": 7.0,
+        "fade_start_deg": 2.0,
+        "fade_end_deg": 32.0,
+        "negative_side": False,
+        "clipped_factors": [],
+        "chord_over_r_outside_calibration": False,
+        "calibration_chord_over_r": {
+            "low": 0.0, "high": 0.4,
+            "source": rotation.CALIBRATION_CHORD_OVER_R["snel"][2],
+        },
+    }
+    both = augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3, chord_over_r=0.1,
+                            tip_speed_ratio=7.0, twist_deg=3.0, negative_side=True)
+    record = both.history[-1]
+    assert (record["tip_speed_ratio"], record["twist_deg"], record["negative_side"]) == (
+        7.0, 3.0, True)
+    # the default twist is 0: Chaviaropoulos-Hansen's factor is then 2.2 c/r = 0.44
+    # (Chaviaropoulos & Hansen 2000, from memory)
+    ch = augment_rotation(piecewise_polar(), "chaviaropoulos-hansen", r_over_R=0.3,
+                          chord_over_r=0.2).history[-1]
+    assert ch["lift_factor"] == pytest.approx(0.44, abs=1e-15)
+
+
+def test_drag_factors_as_applied_and_reported() -> None:
+    # Du-Selig at c/r 0.1, r/R 0.3, tsr 7: f_cd = 0.0336698 (worked above), applied with a
+    # minus sign (drag reduced); Chaviaropoulos-Hansen the same factor for lift and drag
+    ds = augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.3, chord_over_r=0.1,
+                          tip_speed_ratio=7.0).history[-1]
+    assert ds["drag_factor"] == pytest.approx(-0.0336698, abs=2e-7)
+    assert ds["lift_factor"] == pytest.approx(0.0416575, abs=2e-7)
+    ch = augment_rotation(piecewise_polar(), "chaviaropoulos-hansen", r_over_R=0.3,
+                          chord_over_r=0.2, twist_deg=10.0).history[-1]
+    assert ch["drag_factor"] == ch["lift_factor"] == pytest.approx(0.4138648, abs=2e-7)
+    # a raw factor below zero is clipped to 0 and reported (Du-Selig at c/r 0.01: the
+    # bracket 1.2628 * 0.01 * ... - 1 is negative, so f_cl < 0)
+    small = augment_rotation(piecewise_polar(), "du-selig", r_over_R=0.9, chord_over_r=0.01,
+                             tip_speed_ratio=7.0).history[-1]
+    assert small["lift_factor"] == 0.0
+    assert {c["factor"] for c in small["clipped_factors"]} == {"lift_factor", "drag_factor"}
+    assert all(c["raw"] < 0.0 and c["applied"] == 0.0 for c in small["clipped_factors"])
+
+
+def test_drag_at_a_zero_lift_angle_between_rows() -> None:
+    # lift 2 pi (alpha + 1.5 deg): alpha0 = -1.5 deg lies halfway between the rows at -2 and
+    # -1 deg, where cd = 0.012 and 0.010, so cd0 = 0.011 (linear interpolation, by hand).
+    # Chaviaropoulos-Hansen at c/r 0.2, twist 0: factor 0.44; at 20 deg (weight 1 with the
+    # fade given) cd_3d = cd + 0.44 (cd - 0.011) = 0.05 + 0.44 * 0.039 = 0.06716
+    alpha = np.arange(-20.0, 46.0, 1.0)
+    cl = np.minimum(2.0 * math.pi * np.radians(alpha + 1.5), 1.2)
+    cd = np.where(alpha < -1.5, 0.012, 0.010)
+    cd = np.where(alpha >= 10.0, 0.05, cd)
+    p = Polar(alpha, cl, cd)
+    q = augment_rotation(p, "chaviaropoulos-hansen", r_over_R=0.3, chord_over_r=0.2,
+                         fade_start_deg=30.0, fade_end_deg=50.0)
+    assert q.history[-1]["alpha0_deg"] == pytest.approx(-1.5, abs=1e-9)
+    i20 = int(np.flatnonzero(alpha == 20.0)[0])
+    assert q.cd[i20] == pytest.approx(0.06716, abs=1e-12)
+
+
+def test_negative_side_with_given_fade_angles() -> None:
+    # absolute fade angles mirror to the negative side: full down to -10 deg, none below
+    # -30 deg; at -20 deg (s = 0.5) the weight is 0.5: cl_3d = cl + 0.5 * 0.12 (cl_lin - cl)
+    # with cl = 2 pi radians(-8) and cl_lin = 2 pi radians(-18) (piecewise_polar, by hand)
+    p = piecewise_polar()
+    q = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2, negative_side=True,
+                         fade_start_deg=10.0, fade_end_deg=30.0)
+    step = q.history[-1]
+    assert (step["fade_neg_start_deg"], step["fade_neg_end_deg"]) == (-10.0, -30.0)
+    assert (step["fade_start_deg"], step["fade_end_deg"]) == (10.0, 30.0)
+    cl_flat = 2.0 * math.pi * math.radians(-8.0)
+    expected = cl_flat + 0.5 * 0.12 * (2.0 * math.pi * math.radians(-18.0) - cl_flat)
+    assert q.cl[0] == pytest.approx(expected, abs=1e-12)  # the row at -20 deg
+    # tied to the stall angles by default: the negative fade runs from -20 + 5 to -45
+    tied = augment_rotation(p, "snel", r_over_R=0.3, chord_over_r=0.2,
+                            negative_side=True).history[-1]
+    assert (tied["stall_neg_deg"], tied["fade_neg_start_deg"], tied["fade_neg_end_deg"]) == (
+        -20.0, -15.0, -45.0)
+
+
+def test_fade_limits() -> None:
+    # the fade may end at 90 deg but not beyond, and must have a width
+    np.testing.assert_allclose(fade_weight([60.0, 90.0], 30.0, 90.0), [0.5, 0.0], atol=1e-15)
+    for start, end in ((20.0, 20.0), (20.0, 90.5)):
+        with pytest.raises(ParameterError):
+            fade_weight([0.0], start, end)
+    p = piecewise_polar()
+    assert augment_rotation(p, r_over_R=0.3, chord_over_r=0.2,
+                            fade_end_deg=90.0).history[-1]["fade_end_deg"] == 90.0
+    # an offset reaching past 90 deg is capped there: 7 + 100 -> 90
+    assert augment_rotation(p, r_over_R=0.3, chord_over_r=0.2,
+                            fade_end_offset_deg=100.0).history[-1]["fade_end_deg"] == 90.0
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(p, r_over_R=0.3, chord_over_r=0.2, fade_start_deg=30.0,
+                         fade_end_deg=30.0)
+    assert info.value.parameter == "fade_end_deg"
+    with pytest.raises(ParameterError) as info:
+        augment_rotation(p, r_over_R=0.3, chord_over_r=0.2, fade_start_offset_deg=math.inf)
+    assert str(info.value).endswith("must be finite, got inf")

@@ -18,6 +18,7 @@ from polarsvc.store.audit import SYSTEM_ACTOR
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import AuditEvent
 from tests.api.conftest import SEED_DIR
+from tests.plausible import plausible_rows
 
 CSV = (SEED_DIR / "skua" / "SKUA-210_re4e6_clean.csv").read_bytes()
 # new content for the demo database: another contributor's copy, another blade name
@@ -182,7 +183,7 @@ def test_names_and_notes_with_sql_and_html_are_kept_literally(client, tokens):
     notes = "<script>alert(1)</script> ' OR 1=1 --"
     body = (
         f"# airfoil: {tricky_name}\n# thickness: 0.2\n# reynolds: 3e6\n"
-        f"# source_kind: synthetic\n# notes: {notes}\nalpha_deg,cl,cd\n0,0.1,0.01\n5,0.6,0.012\n"
+        f"# source_kind: synthetic\n# notes: {notes}\n{plausible_rows()}"
     ).encode()
     answer = client.post("/api/v1/polars", content=body,
                          headers={**tokens.header("curator"), "Content-Type": "text/csv"})

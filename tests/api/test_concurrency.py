@@ -9,6 +9,7 @@ from sqlalchemy import func, select
 
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import AuditEvent, PolarRevision
+from tests.plausible import plausible_rows
 
 THREADS = 8
 UPLOADS_PER_THREAD = 6
@@ -16,16 +17,20 @@ UPLOADS_PER_THREAD = 6
 
 def polar_file(thread: int, index: int) -> bytes:
     """A small invented table (test data, no source), distinct per thread and index."""
-    lift = 0.1 + 0.001 * (thread * UPLOADS_PER_THREAD + index)
+    lift = 0.0001 * (thread * UPLOADS_PER_THREAD + index)
+    thickness = 0.20 + 0.01 * (thread % 20)  # one airfoil per thickness in a family
     return (
-        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: 0.25\n"
-        f"# reynolds: {2e6 + index * 1e5}\n# source_kind: synthetic\n"
-        f"alpha_deg,cl,cd\n-5,{lift - 0.5},0.011\n0,{lift},0.009\n5,{lift + 0.5},0.012\n"
+        f"# airfoil: SKUA-C{thread}\n# family: skua\n# thickness: {thickness:.2f}\n"
+        f"# reynolds: {2e6 + index * 1e5}\n# mach: 0\n# source_kind: synthetic\n"
+        + plausible_rows(lift)
     ).encode()
 
 
 def test_concurrent_uploads_lose_nothing(client, tokens, prepared_db):
     headers = {**tokens.header("curator"), "Content-Type": "text/csv"}
+    created = client.post("/api/v1/families", json={"name": "skua"},
+                          headers=tokens.header("curator"))
+    assert created.status_code == 201
     shared = polar_file(99, 0)
 
     def work(thread: int) -> list[int]:

@@ -15,6 +15,7 @@ from sqlalchemy import func, select
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import Airfoil, AuditEvent, Family, PolarRevision
 from tests.api.conftest import SEED_DIR
+from tests.plausible import plausible_rows
 
 CSV = (SEED_DIR / "skua" / "SKUA-210_re4e6_clean.csv").read_text()
 BLADE = json.loads((SEED_DIR / "skerry-48.json").read_text())
@@ -35,7 +36,7 @@ def upload(client, tokens, body: str, **params):
 
 def new_airfoil_csv(name: str, notes: str = "synthetic") -> str:
     return (f"# airfoil: {name}\n# thickness: 0.2\n# reynolds: 3e6\n# source_kind: synthetic\n"
-            f"# notes: {notes}\nalpha_deg,cl,cd\n0,0.1,0.01\n5,0.6,0.012\n")
+            f"# notes: {notes}\n{plausible_rows()}")
 
 
 def field_of(answer) -> str:

@@ -17,8 +17,10 @@ from fastapi.testclient import TestClient
 
 from polarsvc.api.app import create_app
 from polarsvc.api.settings import Settings
+from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import db
-from polarsvc.store.db import make_engine, make_session_factory, upgrade_database
+from polarsvc.store.audit import SYSTEM_ACTOR
+from polarsvc.store.db import make_engine, make_session_factory, session_scope, upgrade_database
 from tests.api.conftest import SEED_DIR, make_tokens
 from tests.serverproc import running_server
 
@@ -34,7 +36,7 @@ def many_polars(count: int) -> bytes:
             "airfoil": "TERN-210", "family": "tern",
             "conditions": {"thickness": 0.21, "reynolds": 1e6 + 1000.0 * i, "mach": 0.0},
             "provenance": {"source_kind": "synthetic", "notes": f"load test {i}"},
-            "table": {"alpha_deg": alpha, "cl": [0.1 * a / 10 + 0.2 for a in alpha],
+            "table": {"alpha_deg": alpha, "cl": [0.1 * a + 0.2 for a in alpha],
                       "cd": [0.008 + 1e-4 * a * a for a in alpha]},
         }
         for i in range(count)
@@ -47,7 +49,11 @@ def sqlite_database(tmp_path):
     url = f"sqlite:///{tmp_path / 'served.db'}"
     engine = make_engine(url)
     upgrade_database(engine)
-    tokens = make_tokens(make_session_factory(engine))
+    factory = make_session_factory(engine)
+    tokens = make_tokens(factory)
+    with session_scope(factory, write=True) as session:  # uploads name existing families
+        for family in ("skua", "tern"):
+            airfoil_store.create_family(session, name=family, actor=SYSTEM_ACTOR)
     engine.dispose()
     return url, tokens
 

@@ -34,12 +34,20 @@ def test_approved_only_serving_and_deprecation_flags(demo_client, tokens):
                                   headers=curator)
     assert deprecated.json()["review"] == {
         "state": "deprecated", "reason": "suspect balance", "replaced_by": None}
-    flagged = demo_client.get("/api/v1/blades/skerry-48/tables", headers=reader).json()
-    assert flagged["draws_on_deprecated"] is True
-    assert flagged["deprecated_inputs"] == [target["content_hash"]]
+    # the deprecated revision leaves the default selection (the blade's stations near
+    # t/c 0.30 lie within the Reynolds numbers SKUA-300 keeps)
+    after = demo_client.get("/api/v1/blades/skerry-48/tables", headers=reader)
+    assert after.status_code == 200, after.text
+    assert after.json()["draws_on_deprecated"] is False
+    assert target["content_hash"] not in [i["revision"] for i in after.json()["inputs"]]
+    alone = demo_client.get(f"/api/v1/polars/{target['content_hash']}/extended",
+                            headers=reader).json()
+    assert alone["deprecated_inputs"] == [target["content_hash"]]
     strict = demo_client.get("/api/v1/blades/skerry-48/tables", params={"approved_only": True},
                              headers=reader)
-    assert strict.status_code == 422  # SKUA-300 at that Reynolds number has no approved data
+    # approved-only serving gives the same selection (every other clean revision is approved)
+    assert strict.status_code == 200, strict.text
+    assert strict.json()["content_hash"] == after.json()["content_hash"]
 
 
 def test_lineage_reaches_every_stored_revision_and_reverse_lineage_finds_the_set(

@@ -24,6 +24,9 @@ def test_upload_stores_a_revision_and_deduplicates_identical_content(
     client, tokens, prepared_db
 ):
     body = SEED_FILE.read_bytes()
+    family = client.post("/api/v1/families", json={"name": "skua"},
+                         headers=tokens.header("curator"))
+    assert family.status_code == 201
     first = client.post("/api/v1/polars", content=body, headers={
         **tokens.header("curator"), "Content-Type": "text/csv"})
     assert first.status_code == 201, first.text

@@ -41,14 +41,14 @@ def test_bulk_import_reports_each_file_and_export_reimport_gives_identical_hashe
     for path in sorted(SEED.glob("SKUA-2*_clean.csv")):
         shutil.copy(path, folder / path.name)
     (folder / "broken.csv").write_text("# airfoil: X\nalpha_deg,cl,cd\n0,0.1,nan\n")
-    code = main(["--database-url", url, "import", str(folder)])
+    code = main(["--database-url", url, "import", "--create-families", str(folder)])
     out = capsys.readouterr()
     assert code == 1  # one file refused
     assert re.search(r"broken\.csv: refused \(.*line 3", out.out)
     assert out.out.count(": stored (1 stored, 0 identical)") == 6
     assert "7 files: 6 stored, 0 identical, 1 refused" in out.err
     (folder / "broken.csv").unlink()
-    assert main(["--database-url", url, "import", str(folder)]) == 0
+    assert main(["--database-url", url, "import", "--create-families", str(folder)]) == 0
     assert "6 identical" in capsys.readouterr().err
     stored = hashes(url)
     assert len(stored) == 6
@@ -57,18 +57,18 @@ def test_bulk_import_reports_each_file_and_export_reimport_gives_identical_hashe
     assert main(["--database-url", url, "export", str(exported)]) == 0
     assert len(list(exported.glob("*.csv"))) == 6
     second = f"sqlite:///{tmp_path / 'second.db'}"
-    assert main(["--database-url", second, "import", str(exported)]) == 0
+    assert main(["--database-url", second, "import", "--create-families", str(exported)]) == 0
     assert hashes(second) == stored
 
     exported_json = tmp_path / "exported-json"
     assert main(["--database-url", url, "export", str(exported_json), "--format", "json"]) == 0
     third = f"sqlite:///{tmp_path / 'third.db'}"
-    assert main(["--database-url", third, "import", str(exported_json)]) == 0
+    assert main(["--database-url", third, "import", "--create-families", str(exported_json)]) == 0
     assert hashes(third) == stored
 
 
 def test_tokens_review_audit_lineage_and_verify(url, tmp_path, capsys):
-    assert main(["--database-url", url, "import", str(SEED)]) == 0
+    assert main(["--database-url", url, "import", "--create-families", str(SEED)]) == 0
     capsys.readouterr()
     assert main(["--database-url", url, "token", "create", "ci-reader", "--role", "reader"]) == 0
     secret = capsys.readouterr().out.strip()
@@ -118,7 +118,7 @@ def test_readme_test_command_is_the_one_ci_runs():
 
 
 def test_bundle_round_trip_through_the_command_line(url, tmp_path, capsys):
-    assert main(["--database-url", url, "import", str(SEED)]) == 0
+    assert main(["--database-url", url, "import", "--create-families", str(SEED)]) == 0
     revision = sorted(hashes(url))[0]
     assert main(["--database-url", url, "review", "approve", revision]) == 0
     bundle = tmp_path / "bundle"
@@ -134,3 +134,60 @@ def test_bundle_round_trip_through_the_command_line(url, tmp_path, capsys):
     assert main(["--database-url", again, "bundle", "import", str(bundle)]) == 1
     assert csv_file.name in capsys.readouterr().err
     assert hashes(again) == set()
+
+
+CORPUS = REPO / "tests" / "quality_corpus"
+
+
+def test_import_refuses_quality_errors_naming_the_line_and_an_override_stores(url, capsys):
+    assert main(["--database-url", url, "family", "create", "skua"]) == 0
+    capsys.readouterr()
+    assert main(["--database-url", url, "import", str(CORPUS / "cl_fifty.csv")]) == 1
+    out = capsys.readouterr().out
+    # line 58 of the corpus file holds alpha = 8 deg, cl = 50 (counted in the file)
+    assert "refused" in out and "line 58, field 'cl'" in out and "cl-magnitude" in out
+    assert main(["--database-url", url, "import", "--override-quality", "checked by hand",
+                 str(CORPUS / "cl_fifty.csv")]) == 0
+    out = capsys.readouterr().out
+    assert "error cl-magnitude (line 58, field cl)" in out
+
+
+def test_a_misspelt_family_is_refused_on_import(url, capsys):
+    assert main(["--database-url", url, "family", "create", "skua"]) == 0
+    assert main(["--database-url", url, "import", str(CORPUS / "misspelt_family.csv")]) == 1
+    out = capsys.readouterr().out
+    assert "family 'skau' does not exist" in out and "polarsvc family create skau" in out
+
+
+def test_audit_shows_the_review_state_change_and_reason(url, capsys):
+    assert main(["--database-url", url, "import", "--create-families", str(SEED)]) == 0
+    revision = sorted(hashes(url))[0]
+    assert main(["--database-url", url, "review", "deprecate", revision,
+                 "--reason", "tunnel wall correction missing"]) == 0
+    capsys.readouterr()
+    assert main(["--database-url", url, "audit", "--object", revision]) == 0
+    (review,) = [line for line in capsys.readouterr().out.splitlines() if "polar.review" in line]
+    assert "draft -> deprecated (reason: tunnel wall correction missing)" in review
+    assert f"{revision} -> {revision}" not in review
+
+
+def test_corrections_from_the_command_line(url, capsys):
+    assert main(["--database-url", url, "import", "--create-families", str(SEED)]) == 0
+    assert main(["--database-url", url, "airfoil", "rename", "SKUA-250", "SKUA-250-B",
+                 "--reason", "series naming"]) == 0
+    assert main(["--database-url", url, "airfoil", "retire", "SKUA-250",  # the alias resolves
+                 "--reason", "suspect model"]) == 0
+    assert main(["--database-url", url, "family", "create", "spare"]) == 0
+    assert main(["--database-url", url, "airfoil", "move", "SKUA-250-B", "spare",
+                 "--reason", "kept apart"]) == 0
+    revision = sorted(hashes(url))[0]
+    assert main(["--database-url", url, "review", "correct", revision,
+                 "--facility", "Skerry tunnel (fictional)", "--reason", "was missing"]) == 0
+    capsys.readouterr()
+    assert main(["--database-url", url, "audit", "--object", "SKUA-250-B"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert any("airfoil.rename" in line and "name=SKUA-250 -> name=SKUA-250-B (reason: series "
+               "naming)" in line for line in lines)
+    assert any("airfoil.move" in line and "family=skua -> family=spare" in line
+               for line in lines)
+    assert main(["--database-url", url, "audit", "--actor", "x-nobody"]) == 0

@@ -98,5 +98,5 @@ def test_export_then_import_gives_back_every_field_of_every_revision(
     written = sorted(folder.glob(f"*.{fmt}"))
     assert len(written) == len(original)
     target = f"sqlite:///{tmp_path / 'reimported.db'}"
-    assert main(["--database-url", target, "import", str(folder)]) == 0
+    assert main(["--database-url", target, "import", "--create-families", str(folder)]) == 0
     assert revision_fields(target) == original

@@ -35,7 +35,7 @@ def test_import_continues_past_bad_files_and_fails_at_the_end(database_url, tmp_
     (folder / "d_name.csv").write_text(good[1].read_text().replace(
         "# airfoil: SKUA-", "# airfoil: ../../SKUA-", 1))
     shutil.copy(good[1], folder / "e_good.csv")
-    code = main(["--database-url", database_url, "import", str(folder)])
+    code = main(["--database-url", database_url, "import", "--create-families", str(folder)])
     out = capsys.readouterr()
     assert code == 1
     assert "[1/5]" in out.out and "a_good.csv: stored" in out.out

@@ -49,8 +49,6 @@ def _where(error: FormatError) -> tuple[int | None, str | None]:
         ("repeated column", "# airfoil: A\nalpha_deg,cl,cd,cl\n0,0.1,0.01,1\n", 2, "cl"),
         ("two angle columns", "# airfoil: A\nalpha_deg,aoa_rad,cl,cd\n0,0,0.1,0.01\n", 2,
          "aoa_rad"),
-        ("bare alpha without unit", "# airfoil: A\nalpha,cl,cd\n0,0.1,0.01\n5,0.5,0.01\n", 2,
-         "alpha"),
         ("no header, no unit", "# airfoil: A\n0,0.1,0.01\n5,0.5,0.01\n", 2, "alpha_deg"),
         ("no header, 2 columns", "# angle_unit: deg\n# airfoil: A\n0,0.1\n5,0.5\n", 3, None),
         ("unit contradicts column", "# airfoil: A\n# angle_unit: rad\nalpha_deg,cl,cd\n0,1,1\n",

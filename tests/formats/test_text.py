@@ -158,3 +158,41 @@ def test_windows_line_endings_keep_line_numbers():
     assert (info.value.line, info.value.field) == (4, "cl")
     (parsed,) = parse_polar_file(data.replace(b"x", b"0.6"))
     assert parsed.source_line == 3
+
+
+# -- header spellings and delimiter sniffing ------------------------------------------------
+@pytest.mark.parametrize(
+    ("header", "unit"),
+    [
+        ("alpha,cl,cd", None), ("aoa,c_l,c_d", None), ("angle,lift,drag", None),
+        ("Angle of attack,Lift coefficient,Drag coefficient", None),
+        ("alpha_deg,cl,cd", "deg"), ("Alpha (deg),CL (-),CD (-)", "deg"),
+        ("aoa[deg],c_l,c_d", "deg"), ("incidence deg,cl,cd", "deg"),
+        ("alpha (rad),cl,cd", "rad"),
+    ],
+)
+def test_common_header_spellings(header, unit):
+    angle = "0.0872664626" if unit == "rad" else "5"  # 5 deg in radians (by hand)
+    data = f"# airfoil: A\n{header}\n0,0.1,0.01\n{angle},0.6,0.012\n".encode()
+    (parsed,) = parse_polar_file(data)
+    np.testing.assert_allclose(parsed.polar.alpha_deg, [0.0, 5.0], rtol=0, atol=1e-8)
+    np.testing.assert_array_equal(parsed.polar.cl, [0.1, 0.6])
+    # a name without unit is taken as degrees and says so
+    assert parsed.angle_unit_assumed is (unit is None)
+
+
+def test_moment_spellings():
+    data = b"# airfoil: A\nalpha_deg,cl,cd,c_m\n0,0.1,0.01,-0.05\n5,0.6,0.012,-0.06\n"
+    (parsed,) = parse_polar_file(data)
+    np.testing.assert_array_equal(parsed.polar.cm, [-0.05, -0.06])
+
+
+@pytest.mark.parametrize("content_type", ["text/csv", "text/tab-separated-values",
+                                          "text/plain", None])
+def test_delimiter_is_sniffed_whatever_the_declared_text_type(content_type):
+    whitespace = b"# airfoil: A\nalpha_deg cl cd cm\n0 0.1 0.01 -0.05\n5 0.6 0.012 -0.06\n"
+    (parsed,) = parse_polar_file(whitespace, content_type=content_type, filename="x.csv")
+    np.testing.assert_array_equal(parsed.polar.alpha_deg, [0.0, 5.0])
+    tabbed = b"# airfoil: A\nalpha_deg\tcl\tcd\n0\t0.1\t0.01\n5\t0.6\t0.012\n"
+    (parsed,) = parse_polar_file(tabbed, content_type=content_type, filename="x.csv")
+    np.testing.assert_array_equal(parsed.polar.cl, [0.1, 0.6])

@@ -407,7 +407,8 @@ def test_family_export_refuses_a_replacement_outside_the_family(
         polar_store.set_review_state(
             session, content_hash=source["hashes"]["SKUA-CYL_re4e6_clean.csv"],
             state="deprecated", reason="replaced by the lab table",
-            replaced_by_hash=source["hostile_revision"], actor=REVIEWER,
+            replaced_by_hash=source["hostile_revision"],
+            replacement_reason="the lab table covers this section", actor=REVIEWER,
         )
     with pytest.raises(BundleError, match="outside family") as caught:
         export_bundle(source["factory"], tmp_path / "skua", family="skua")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import json
 
 import numpy as np
 import pytest
@@ -244,3 +245,33 @@ def test_review_transitions(seeded: sessionmaker[Session]) -> None:
         assert [e.action for e in events] == ["polar.store", "polar.review", "polar.review"]
         assert '"to":"deprecated"' in events[-1].detail
         assert verify_revision(get_revision(session, a)) == a  # review is not content
+
+
+def test_a_replacement_must_match_the_conditions_or_say_why(
+    seeded: sessionmaker[Session],
+) -> None:
+    a, _ = _store(seeded, small_polar())
+    other_reynolds, _ = _store(seeded, small_polar(0.01, reynolds=6.0e6))
+    same, _ = _store(seeded, small_polar(0.02))
+    differs = r"reynolds 6000000\.0 instead of 3000000\.0"
+    with session_scope(seeded, write=True) as session, pytest.raises(InvalidTransition,
+                                                                    match=differs):
+        set_review_state(session, content_hash=a, state="deprecated", reason="x",
+                         replaced_by_hash=other_reynolds, actor=CURATOR)
+    with session_scope(seeded, write=True) as session:
+        set_review_state(session, content_hash=a, state="deprecated", reason="x",
+                         replaced_by_hash=other_reynolds,
+                         replacement_reason="the 6e6 run supersedes the whole series",
+                         actor=CURATOR)
+    with session_scope(seeded, write=True) as session:
+        set_review_state(session, content_hash=other_reynolds, state="deprecated",
+                         reason="y", replaced_by_hash=a, replacement_reason="back",
+                         actor=CURATOR)
+        revision = set_review_state(session, content_hash=same, state="deprecated",
+                                    reason="z", replaced_by_hash=a, actor=CURATOR)
+        assert revision.replaced_by.content_hash == a
+    with session_scope(seeded, write=False) as session:
+        (event,) = [e for e in query_events(session, object_key=a) if e.action == "polar.review"]
+        detail = json.loads(event.detail)
+    assert (detail["from"], detail["to"]) == ("draft", "deprecated")
+    assert detail["replacement_reason"] == "the 6e6 run supersedes the whole series"

@@ -259,7 +259,7 @@ def _store_hostile_airfoil(demo: Demo) -> str:
     name = "<img src=x onerror=alert(1)>"
     with session_scope(demo.app.state.session_factory, write=True) as session:
         session.add(Airfoil(
-            name=name, thickness=0.21, family=airfoil_store.get_family(session, "skua"),
+            name=name, thickness=0.22, family=airfoil_store.get_family(session, "skua"),
             description="<script>alert('description')</script>",
         ))
         session.flush()

@@ -14,10 +14,14 @@ from polarsvc.api.schemas import (
     PAGE_SIZE,
     AfterQuery,
     AirfoilIn,
+    AirfoilMove,
+    AirfoilRename,
+    AirfoilRetirement,
     FamilyIn,
     LimitQuery,
 )
 from polarsvc.store import airfoils as airfoil_store
+from polarsvc.store import curation
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import Airfoil, Family
@@ -37,6 +41,9 @@ def airfoil_summary(airfoil: Airfoil, has_coordinates: bool | None = None) -> di
         "description": airfoil.description,
         "has_coordinates": has_coordinates,
         "created_at": airfoil.created_at.isoformat(),
+        "aliases": [a.name for a in airfoil.aliases],
+        "retired": airfoil.retired,
+        "retired_reason": airfoil.retired_reason,
     }
 
 
@@ -140,3 +147,39 @@ def get_airfoil(name: str, request: Request, session: ReadSession, principal: Re
             "revisions": [revision_summary(r, principal) for r in revisions],
         }
     )
+
+
+def _curation(request: Request, action) -> Any:
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        return json_response(airfoil_summary(action(session)))
+
+
+@router.post("/airfoils/{name}/move", summary="Move an airfoil to another family (curator)")
+def move_airfoil(name: str, body: AirfoilMove, request: Request, principal: Curator):
+    return _curation(request, lambda session: curation.move_airfoil(
+        session, name=name, family=body.family, reason=body.reason, actor=principal.actor()))
+
+
+@router.post(
+    "/airfoils/{name}/rename",
+    summary="Rename an airfoil; the former name stays as an alias (curator)",
+)
+def rename_airfoil(name: str, body: AirfoilRename, request: Request, principal: Curator):
+    return _curation(request, lambda session: curation.rename_airfoil(
+        session, name=name, new_name=body.new_name, reason=body.reason,
+        actor=principal.actor()))
+
+
+@router.post(
+    "/airfoils/{name}/retire",
+    summary="Retire an airfoil from family blends and blade sets (curator)",
+)
+def retire_airfoil(name: str, body: AirfoilRetirement, request: Request, principal: Curator):
+    return _curation(request, lambda session: curation.set_retired(
+        session, name=name, retired=True, reason=body.reason, actor=principal.actor()))
+
+
+@router.post("/airfoils/{name}/reinstate", summary="Reinstate a retired airfoil (curator)")
+def reinstate_airfoil(name: str, body: AirfoilRetirement, request: Request, principal: Curator):
+    return _curation(request, lambda session: curation.set_retired(
+        session, name=name, retired=False, reason=body.reason, actor=principal.actor()))

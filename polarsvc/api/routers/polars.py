@@ -15,12 +15,15 @@ from polarsvc.api.schemas import (
     PAGE_SIZE,
     AfterQuery,
     LimitQuery,
+    ProvenanceCorrection,
     ReviewChange,
 )
 from polarsvc.api.served import served_response
 from polarsvc.api.settings import Settings
 from polarsvc.api.visibility import shown_name
-from polarsvc.ingest import store_upload
+from polarsvc.formats import METADATA_KEYS
+from polarsvc.ingest import UploadedFile, store_uploads
+from polarsvc.store import curation
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import PolarRevision
@@ -67,6 +70,8 @@ def revision_summary(
             for key, value in polar_store.revision_provenance(revision).items()
         },
         "supersedes": revision.supersedes.content_hash if revision.supersedes else None,
+        "quality_flags": polar_store.revision_flags(revision),
+        "quality_override": revision.quality_override,
         "review": {
             "state": revision.review_state,
             "reason": revision.review_reason,
@@ -112,7 +117,7 @@ def list_polars(
 @router.post(
     "/polars",
     status_code=201,
-    summary="Upload a polar file (CSV, TSV, whitespace text or JSON)",
+    summary="Upload polar files (CSV, TSV, whitespace text or JSON; body or multipart form)",
     responses={
         200: {"description": "every polar in the file was already stored (identical)"},
         201: {"description": "at least one new revision was stored"},
@@ -140,15 +145,25 @@ async def upload_polar(
     angle_unit: Annotated[str | None, Query(max_length=8)] = None,
     supersedes: Annotated[str | None, Query(min_length=8, max_length=64)] = None,
     filename: Annotated[str | None, Query(max_length=300)] = None,
+    override_quality: Annotated[
+        str | None,
+        Query(max_length=2000, description="store despite error-level quality flags; the "
+              "reason is kept with the revision and in the audit trail"),
+    ] = None,
 ):
-    """The body is the file itself. Query parameters fill metadata the file does not give.
-    The whole file is stored, or nothing."""
+    """The body is the file itself, or a multipart form (``curl -F file=@a.csv -F
+    file=@b.csv``) holding one or more files; text fields of the form fill metadata like
+    the query parameters. Query parameters fill metadata the file does not give.
+    All files are stored, or nothing; an error names the file, line and field. Every polar
+    gets quality flags; error-level flags refuse the file with 422 naming line and field
+    unless ``override_quality`` gives a reason (absurd magnitudes are refused whatever the
+    override)."""
     content_type = (request.headers.get("content-type") or "").split(";")[0].strip().lower()
-    if content_type and content_type not in TABLE_MEDIA_TYPES:
+    if content_type and content_type not in (*TABLE_MEDIA_TYPES, MULTIPART):
         raise HTTPException(
             status_code=415,
             detail=f"content type {content_type!r} is not a table; "
-            f"use one of {', '.join(TABLE_MEDIA_TYPES)}",
+            f"use one of {', '.join(TABLE_MEDIA_TYPES)}, or {MULTIPART} with file parts",
         )
     declared = request.headers.get("content-length")
     if declared and declared.isdigit() and int(declared) > settings.max_upload_bytes:
@@ -156,14 +171,6 @@ async def upload_polar(
             status_code=413,
             detail=f"body of {declared} bytes exceeds the limit of {settings.max_upload_bytes}",
         )
-    body = bytearray()
-    async for chunk in request.stream():
-        body.extend(chunk)
-        if len(body) > settings.max_upload_bytes:
-            raise HTTPException(
-                status_code=413,
-                detail=f"body exceeds the limit of {settings.max_upload_bytes} bytes",
-            )
     defaults = {
         key: value
         for key, value in {
@@ -175,17 +182,70 @@ async def upload_polar(
         }.items()
         if value is not None
     }
+    if content_type == MULTIPART:
+        files, fields = await _form_files(request, settings.max_upload_bytes)
+        defaults.update({k: v for k, v in fields.items() if k in METADATA_KEYS})
+        override_quality = fields.get("override_quality", override_quality)
+    else:
+        body = bytearray()
+        async for chunk in request.stream():
+            body.extend(chunk)
+            if len(body) > settings.max_upload_bytes:
+                raise HTTPException(
+                    status_code=413,
+                    detail=f"body exceeds the limit of {settings.max_upload_bytes} bytes",
+                )
+        files = [UploadedFile(filename, bytes(body), content_type or None)]
     # parsing, hashing and the database work run in a worker thread: the event loop stays
-    # free for other requests while a large file is stored
+    # free for other requests while large files are stored
     outcomes = await run_in_threadpool(
-        store_upload, request.app.state.session_factory, bytes(body),
-        actor=principal.actor(), filename=filename, content_type=content_type or None,
-        defaults=defaults, max_bytes=settings.max_upload_bytes, supersedes=supersedes,
+        store_uploads, request.app.state.session_factory, files,
+        actor=principal.actor(), defaults=defaults, max_bytes=settings.max_upload_bytes,
+        supersedes=supersedes, override_quality=override_quality,
     )
     created = any(o.created for o in outcomes)
     return json_response(
         {"stored": [o.as_dict() for o in outcomes]}, status_code=201 if created else 200
     )
+
+
+MULTIPART = "multipart/form-data"
+MAX_FORM_FILES = 100
+
+
+async def _form_files(
+    request: Request, max_bytes: int
+) -> tuple[list[UploadedFile], dict[str, str]]:
+    """The file parts of a multipart form (any field name; several files allowed) and its
+    text fields."""
+    form = await request.form(max_files=MAX_FORM_FILES, max_fields=100)
+    files: list[UploadedFile] = []
+    fields: dict[str, str] = {}
+    total = 0
+    for key, value in form.multi_items():
+        if isinstance(value, str):
+            fields[key] = value
+            continue
+        data = await value.read()
+        total += len(data)
+        if total > max_bytes:
+            raise HTTPException(
+                status_code=413, detail=f"files exceed the limit of {max_bytes} bytes"
+            )
+        part_type = (value.content_type or "").split(";")[0].strip().lower() or None
+        if part_type not in (None, *TABLE_MEDIA_TYPES):
+            raise HTTPException(
+                status_code=415,
+                detail=f"part {value.filename or key!r}: content type {part_type!r} is not a "
+                f"table; use one of {', '.join(TABLE_MEDIA_TYPES)}",
+            )
+        files.append(UploadedFile(value.filename or key, data, part_type))
+    await form.close()
+    if not files:
+        raise HTTPException(
+            status_code=422, detail="the form holds no file part (curl -F file=@polar.csv)"
+        )
+    return files, fields
 
 
 @router.get("/polars/{content_hash}", summary="A revision: metadata, provenance and table")
@@ -371,9 +431,28 @@ def review_polar(content_hash: str, change: ReviewChange, request: Request, prin
     with session_scope(request.app.state.session_factory, write=True) as session:
         revision = polar_store.set_review_state(
             session, content_hash=content_hash, state=change.state, reason=change.reason,
-            replaced_by_hash=change.replaced_by, actor=principal.actor(),
+            replaced_by_hash=change.replaced_by, replacement_reason=change.replacement_reason,
+            actor=principal.actor(),
         )
         return json_response(revision_summary(revision, principal))
+
+
+@router.post(
+    "/polars/{content_hash}/correct",
+    status_code=201,
+    summary="Correct provenance fields by a new revision that supersedes this one (curator)",
+)
+def correct_polar(
+    content_hash: str, body: ProvenanceCorrection, request: Request, principal: Curator
+):
+    """The table, conditions and quality flags are kept; the old revision stays stored and
+    verifiable. One audit event ``polar.correct`` holds the fields before and after."""
+    with session_scope(request.app.state.session_factory, write=True) as session:
+        revision = curation.correct_provenance(
+            session, content_hash=content_hash, changes=body.provenance, reason=body.reason,
+            actor=principal.actor(),
+        )
+        return json_response(revision_summary(revision, principal), status_code=201)
 
 
 @router.get(
