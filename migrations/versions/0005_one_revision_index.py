@@ -1,7 +1,7 @@
 """One index for an airfoil's revisions: drop ``ix_polar_revision_lookup``.
 
-Revision ID: 0004
-Revises: 0003
+Revision ID: 0005
+Revises: 0004
 Create Date: 2026-12-02
 
 ``ix_polar_revision_listing`` (airfoil_id, id, surface, review_state, source_kind,
@@ -17,8 +17,8 @@ from collections.abc import Sequence
 
 from alembic import op
 
-revision: str = "0004"
-down_revision: str | None = "0003"
+revision: str = "0005"
+down_revision: str | None = "0004"
 branch_labels: str | Sequence[str] | None = None
 depends_on: str | Sequence[str] | None = None
 
