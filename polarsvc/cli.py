@@ -34,6 +34,10 @@ SEED_DIRS = (Path(__file__).resolve().parent.parent / "seed_polars", Path.cwd() 
 DEMO_DATABASE = Path("polarsvc-data") / "demo.db"
 DEFAULT_SERVER = "http://127.0.0.1:8000"
 EXIT_CANNOT_SERVE = 3
+WORKERS_ENV = "POLARSVC_WORKERS"
+"""Environment setting of the number of server processes (``serve --workers`` wins)."""
+
+
 EXIT_SCHEMA_MISMATCH = 4
 """Exit code when the database carries a schema revision this software does not know."""
 
@@ -143,6 +147,14 @@ def cmd_serve(args: argparse.Namespace) -> int:
                 "--demo and no --database-url")
         return 2
     try:
+        workers = _worker_count(args)
+    except ValueError as exc:
+        _stderr(f"polarsvc serve: {exc}")
+        return 2
+    if workers < 1:
+        _stderr(f"polarsvc serve: --workers must be at least 1, got {workers}")
+        return 2
+    try:
         listener = bind_listener(args.host, args.port)
     except CannotServe as exc:
         _stderr(f"polarsvc serve: {exc}")
@@ -164,13 +176,53 @@ def cmd_serve(args: argparse.Namespace) -> int:
         if secret is not None:
             _stderr(f"one-time local admin token (shown once, not stored in clear): {secret}")
         _stderr(f"polarsvc {__version__} on {address}/ (API docs: {address}/api/v1/docs)")
-        config = uvicorn.Config(
-            create_app(settings), host=args.host, port=args.port, log_level=args.log_level
-        )
-        uvicorn.Server(config).run(sockets=[listener])
+        if workers == 1:
+            config = uvicorn.Config(
+                create_app(settings), host=args.host, port=args.port, log_level=args.log_level
+            )
+            uvicorn.Server(config).run(sockets=[listener])
+        else:
+            _serve_workers(settings, listener, workers, args)
     finally:
         listener.close()
     return 0
+
+
+def _worker_count(args: argparse.Namespace) -> int:
+    """--workers, else POLARSVC_WORKERS, else 1."""
+    if args.workers is not None:
+        return int(args.workers)
+    text = os.environ.get(WORKERS_ENV, "").strip()
+    if not text:
+        return 1
+    try:
+        return int(text)
+    except ValueError:
+        raise ValueError(f"{WORKERS_ENV}={text!r} is not a whole number") from None
+
+
+def _serve_workers(settings: Any, listener: Any, workers: int, args: argparse.Namespace) -> None:
+    """Serve with ``workers`` processes (uvicorn's supervisor) sharing the bound socket.
+
+    The workers build the application from the environment
+    (:func:`polarsvc.api.app.create_app_from_env`), so the settings travel there; the
+    schema has been brought up to date before, so the workers start on a current database.
+    """
+    from uvicorn import Config
+    from uvicorn.supervisors import Multiprocess
+
+    os.environ.update({
+        "POLARSVC_DATABASE_URL": settings.database_url,
+        "POLARSVC_PUBLIC_READS": "1" if settings.public_reads else "0",
+        "POLARSVC_READ_ONLY": "1" if settings.read_only else "0",
+        "POLARSVC_APPROVED_ONLY": "1" if settings.approved_only else "0",
+        "POLARSVC_MAX_UPLOAD_BYTES": str(settings.max_upload_bytes),
+    })
+    config = Config(
+        "polarsvc.api.app:create_app_from_env", factory=True, host=args.host, port=args.port,
+        log_level=args.log_level, workers=workers,
+    )
+    Multiprocess(config, sockets=[listener]).run()
 
 
 def _prepare_schema(database_url: str) -> None:
@@ -761,6 +813,10 @@ def build_parser() -> argparse.ArgumentParser:
     serve.add_argument("--approved-only", action="store_true",
                        help="serve only approved revisions unless a request says otherwise")
     serve.add_argument("--log-level", default="info")
+    serve.add_argument("--workers", type=int, default=None,
+                       help=f"server processes sharing the port (default: {WORKERS_ENV} or 1); "
+                       "for several workers on SQLite, writes queue through WAL and BEGIN "
+                       "IMMEDIATE; a team uses PostgreSQL")
     serve.set_defaults(handler=cmd_serve)
 
     db = commands.add_parser("db", help="database maintenance")

@@ -263,14 +263,39 @@ def load_input_polars(session: Session, hashes: Sequence[str]) -> dict[str, Any]
     return {row.content_hash: polar_store.load_polar(row) for row in rows}
 
 
-RECENT_TABLES: LruCache[ServedTable] = LruCache(max_entries=64)
+REPORT_BYTES_PER_STATION = 4096
+"""Estimate of the memory one station's report takes as Python objects (a few dozen
+numbers and short strings in dicts), for the byte bounds of the caches."""
+
+
+def _served_size(served: ServedTable) -> int:
+    """Approximate memory of a served table: its arrays, plus its station reports."""
+    arrays = sum(
+        int(getattr(a, "nbytes", 0)) for a in (served.alpha_deg, *served.columns.values())
+    )
+    stations = served.reports.get("stations") if served.reports else None
+    return arrays + REPORT_BYTES_PER_STATION * (len(stations) if stations else 1)
+
+
+def _prepared_size(family: Any) -> int:
+    return int(sum(getattr(v, "nbytes", 0) for v in vars(family).values())) + 4096
+
+
+RECENT_TABLES_MAX_BYTES = 64 * 2**20
+RECENT_TABLES: LruCache[ServedTable] = LruCache(
+    max_entries=256, max_size=RECENT_TABLES_MAX_BYTES, size_of=_served_size
+)
 """The most recently served derived tables by (database, recipe hash): a repeated request
 skips reading and re-checking the stored payload. A recipe hash names one immutable table;
-verification always reads the database."""
+verification always reads the database. Bounded in bytes (arrays and reports)."""
 
-PREPARED_FAMILIES: LruCache[Any] = LruCache(max_entries=16)
+PREPARED_FAMILIES_MAX_BYTES = 48 * 2**20
+PREPARED_FAMILIES: LruCache[Any] = LruCache(
+    max_entries=64, max_size=PREPARED_FAMILIES_MAX_BYTES, size_of=_prepared_size
+)
 """Families extended and resampled once, by member revisions and extension settings
-(content-addressed), shared by every blade set and blend computed from them."""
+(content-addressed), shared by every blade set and blend computed from them. Bounded in
+bytes."""
 
 
 def _database_key(factory: sessionmaker[Session]) -> str:
@@ -462,11 +487,20 @@ def select_family_members(
 
 
 # -- the served kinds ----------------------------------------------------------------------
+def _resolution_size(resolved: tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]) -> int:
+    """Approximate memory of a resolution: the recipe, input summaries and blade definition
+    (its stations dominate), estimated from their counts."""
+    _, inputs, _ = resolved
+    stations = (inputs.blade_definition or {}).get("stations") or ()
+    return 8192 + 1024 * len(inputs.summaries) + 1024 * len(stations)
+
+
+RESOLUTIONS_MAX_BYTES = 16 * 2**20
 RESOLUTIONS: LruCache[tuple[dict[str, Any], ResolvedInputs, dict[str, Any]]] = LruCache(
-    max_entries=256
+    max_entries=1024, max_size=RESOLUTIONS_MAX_BYTES, size_of=_resolution_size
 )
 """Requests already resolved to (recipe, inputs, extra), by request, write generation and a
-time bucket of :data:`RESOLUTION_LIFETIME_S`."""
+time bucket of :data:`RESOLUTION_LIFETIME_S`. Bounded in bytes (estimated)."""
 
 RESOLUTION_LIFETIME_S = 10.0
 """A resolution is reused for at most this long. Within it, the write generation catches

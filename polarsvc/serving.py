@@ -55,6 +55,10 @@ def bind_listener(host: str, port: int) -> socket.socket:
     family, kind, proto, _, address = infos[0]
     listener = socket.socket(family, kind, proto)
     listener.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+    if family in (socket.AF_INET, socket.AF_INET6):
+        # accepted connections inherit it (Linux): small responses on kept-alive
+        # connections go out at once instead of waiting for the client's delayed ACK
+        listener.setsockopt(socket.IPPROTO_TCP, socket.TCP_NODELAY, 1)
     try:
         listener.bind(address)
     except OSError as exc:

@@ -19,6 +19,7 @@ from polarsvc.api.deps import refuse_control_characters
 from polarsvc.api.responses import FormatChoiceError, json_response
 from polarsvc.api.settings import Settings
 from polarsvc.formats import FormatError
+from polarsvc.memory import limit_allocator_retention
 from polarsvc.names import TEXT_PATTERN, InvalidText
 from polarsvc.store import errors as store_errors
 from polarsvc.store.db import is_lock_timeout, make_engine, upgrade_database
@@ -54,6 +55,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(app: FastAPI) -> AsyncIterator[None]:
+        limit_allocator_retention()
         engine = make_engine(settings.database_url)
         if settings.apply_migrations:
             upgrade_database(engine)
@@ -99,6 +101,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     else:
         install_pages(app)
     return app
+
+
+def create_app_from_env() -> FastAPI:
+    """The application with settings from the environment: the factory each worker process
+    of ``polarsvc serve --workers N`` calls (``uvicorn --factory``)."""
+    return create_app(Settings.from_env())
 
 
 def _declare_text_rule(app: FastAPI) -> None:

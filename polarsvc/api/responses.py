@@ -186,7 +186,7 @@ def _encoded_size(value: object) -> int:
     return int(getattr(value, "nbytes", 0))
 
 
-ENCODED_MAX_BYTES = 192 * 2**20
+ENCODED_MAX_BYTES = 96 * 2**20
 ENCODED: LruCache[Any] = LruCache(
     max_entries=512, max_size=ENCODED_MAX_BYTES, size_of=_encoded_size
 )

@@ -155,8 +155,8 @@ class PolarRevision(Base):
         CheckConstraint(_in("source_kind", SOURCE_KINDS), name="source_kind"),
         CheckConstraint(_in("review_state", REVIEW_STATES), name="review_state"),
         CheckConstraint("n_rows >= 2", name="n_rows"),
-        Index("ix_polar_revision_lookup", "airfoil_id", "reynolds", "surface"),
-        # listings: an airfoil's revisions in keyset order, with every filtered column
+        # an airfoil's revisions in keyset order, with every filtered column (listings,
+        # catalogue summaries and lookups by airfoil, Reynolds number and surface)
         Index(
             "ix_polar_revision_listing",
             "airfoil_id", "id", "surface", "review_state", "source_kind", "reynolds",

@@ -116,10 +116,14 @@ def take_page(
     return Page(items, cursor, total)
 
 
-COUNTS: LruCache[int] = LruCache(max_entries=1024)
-"""Counts of listings by (database, statement, write generation): a count stays valid
-while no write happened (every write records an audit event). Entries are a few dozen
-bytes, so the entry bound bounds the memory too."""
+COUNT_ENTRY_BYTES = 512
+"""Estimate of one kept count's memory (its key: URL, filters; and the number)."""
+COUNTS: LruCache[int] = LruCache(
+    max_entries=2048, max_size=2048 * COUNT_ENTRY_BYTES, size_of=lambda _: COUNT_ENTRY_BYTES
+)
+"""Counts of listings by (database, listing and filters, write generation): a count stays
+valid while no write happened (every write records an audit event). Bounded in bytes (by
+an estimate per entry)."""
 
 
 def count_rows(session: Session, statement: Select[Any], key: tuple[Any, ...]) -> int:

@@ -20,7 +20,14 @@ from polarsvc.hashing import (
     decode_array_bytes,
     polar_content_hash,
 )
-from polarsvc.store._lookup import check_choice, check_text, find_by_hash, insert_or_winner
+from polarsvc.lru import LruCache
+from polarsvc.store._lookup import (
+    check_choice,
+    check_text,
+    find_by_hash,
+    hash_condition,
+    insert_or_winner,
+)
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import (
@@ -281,6 +288,65 @@ def load_polar(revision: PolarRevision) -> Polar:
     )
 
 
+def _table_bytes(table: dict[str, Any]) -> int:
+    return sum(array.nbytes for array in table.values()) + 512
+
+
+REVISION_TABLES_MAX_BYTES = 32 * 2**20
+REVISION_TABLES: LruCache[dict[str, Any]] = LruCache(
+    max_entries=20000, max_size=REVISION_TABLES_MAX_BYTES, size_of=_table_bytes
+)
+"""Decoded tables of stored revisions by content hash (a revision's table never changes;
+only its review fields do, and they are not kept here). Bounded in bytes."""
+
+
+def revision_table(revision: PolarRevision) -> dict[str, Any]:
+    """The stored table of a revision as read-only arrays ``alpha_deg, cl, cd[, cm]``,
+    decoded and validated once per content hash (:data:`REVISION_TABLES`)."""
+
+    def load() -> dict[str, Any]:
+        polar = load_polar(revision)
+        table = {"alpha_deg": polar.alpha_deg, "cl": polar.cl, "cd": polar.cd}
+        if polar.cm is not None:
+            table["cm"] = polar.cm
+        for array in table.values():
+            array.flags.writeable = False
+        return table
+
+    return REVISION_TABLES.get(revision.content_hash, load)
+
+
+def revision_brief(session: Session, key: str) -> tuple[str, str, str]:
+    """``(content_hash, airfoil name, review_state)`` of the revision named by ``key`` (a
+    full hash or a unique prefix), read without the revision's table.
+
+    Raises
+    ------
+    NotFound, AmbiguousKey, InvalidValue
+        As :func:`get_revision`.
+    """
+    statement = (
+        select(PolarRevision.content_hash, Airfoil.name, PolarRevision.review_state)
+        .join(Airfoil, Airfoil.id == PolarRevision.airfoil_id)
+        .where(hash_condition(PolarRevision.content_hash, key))
+        .limit(2)
+    )
+    rows = session.execute(statement).all()
+    if len(rows) != 1:
+        get_revision(session, key)  # raises the error that names the problem
+    content_hash, airfoil_name, review_state = rows[0]
+    return content_hash, airfoil_name, review_state
+
+
+def table_of(session: Session, content_hash: str) -> dict[str, Any]:
+    """The decoded table of the revision with this full content hash, from
+    :data:`REVISION_TABLES` (read from the database on its first use)."""
+    table = REVISION_TABLES.peek(content_hash)
+    if table is None:
+        table = revision_table(get_revision(session, content_hash))
+    return table
+
+
 def verify_revision(revision: PolarRevision) -> str:
     """Recompute a stored revision's content hash; return it, or raise
     :class:`IntegrityProblem` if it differs from the stored one.
@@ -532,7 +598,8 @@ def page_revisions(
     total = None
     if count:
         total = count_rows(
-            session, filtered(select(func.count(PolarRevision.id)).join(Airfoil)),
+            session,
+            filtered(select(func.count(PolarRevision.id)).join(Airfoil)),
             ("revisions", airfoil, family, reynolds, surface, review_state, source_kind),
         )
     return _take_page(rows, limit, lambda r: (r.airfoil.name, r.id), total)

@@ -38,7 +38,7 @@ PLOT_TITLES = {
 }
 
 AUDIT_PAGE_LIMIT = 500
-CATALOGUE_FAMILIES = 200
+CATALOGUE_FAMILIES = 25
 """Families listed on the catalogue page (the API pages through all of them)."""
 CATALOGUE_BLADES = 200
 

@@ -122,7 +122,7 @@ class AirfoilRow:
     n_revisions: int = 0
 
 
-CATALOGUE_PAGE_SIZE = 100
+CATALOGUE_PAGE_SIZE = 25
 
 
 @dataclass

@@ -293,20 +293,20 @@ def get_polar_table(
     format: FormatQuery = None,
 ):
     fmt = choose_format(request, format)
-    revision = polar_store.get_revision(session, content_hash)
-    polar = polar_store.load_polar(revision)
-    columns = {"cl": polar.cl, "cd": polar.cd}
-    if polar.cm is not None:
-        columns["cm"] = polar.cm
+    # the identity and review state are read each time (small, indexed); the table itself
+    # is immutable under its hash and comes from memory after the first request
+    full_hash, airfoil_name, review_state = polar_store.revision_brief(session, content_hash)
+    table = polar_store.table_of(session, full_hash)
+    columns = {name: values for name, values in table.items() if name != "alpha_deg"}
     meta = {
         "kind": "stored",
-        "content_hash": revision.content_hash,
-        "airfoil": revision.airfoil.name,
-        "review_state": revision.review_state,
+        "content_hash": full_hash,
+        "airfoil": airfoil_name,
+        "review_state": review_state,
         "caution": pipeline.CAUTION,
     }
     return table_response(
-        request, fmt=fmt, content_hash=revision.content_hash, alpha_deg=polar.alpha_deg,
+        request, fmt=fmt, content_hash=full_hash, alpha_deg=table["alpha_deg"],
         columns=columns, meta=meta,
     )
 
