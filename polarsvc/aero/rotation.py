@@ -24,7 +24,7 @@ The weight ``w`` (:func:`fade_weight`, per station):
 - **Tied to the section's own stall angle** ``alpha_s`` (the global cl maximum over (0, 30]
   deg within the measured rows, :func:`~polarsvc.aero.characteristics._stall_angle_arrays`,
   the same angle that anchors the full-range extension): full up to ``alpha_s +
-  fade_start_offset_deg`` (default +0 deg), zero from ``alpha_s + fade_end_offset_deg``
+  fade_start_offset_deg`` (default -5 deg), zero from ``alpha_s + fade_end_offset_deg``
   (default +25 deg), never past 90 deg. Either end can be given as an absolute angle instead.
 - **Smooth**: between the two ends ``w = 1 - 3 s^2 + 2 s^3`` with ``s`` the position within
   the fade (the cubic Hermite step, zero slope at both ends; common practice, no source). A
@@ -72,8 +72,8 @@ CH_N = 4.0
 
 DEFAULT_FADE_START_OFFSET_DEG = -5.0
 DEFAULT_FADE_END_OFFSET_DEG = 25.0
-"""The fade runs from the stall angle to 25 deg past it (common practice, no source: the
-measured stall delay on rotating blades extends some 10-20 deg past the 2D stall angle; the
+"""The fade runs from 5 deg before the stall angle to 25 deg past it (common practice, no
+source: the measured stall delay on rotating blades extends some 10-20 deg past the 2D stall angle; the
 width keeps the increment's curvature below 0.04/deg^2 on the demo blade, so its slope changes
 by less than 0.02/deg per 0.5 deg step)."""
 
