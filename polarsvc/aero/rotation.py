@@ -73,9 +73,9 @@ CH_N = 4.0
 DEFAULT_FADE_START_OFFSET_DEG = -5.0
 DEFAULT_FADE_END_OFFSET_DEG = 25.0
 """The fade runs from 5 deg before the stall angle to 25 deg past it (common practice, no
-source: the measured stall delay on rotating blades extends some 10-20 deg past the 2D stall angle; the
-width keeps the increment's curvature below 0.04/deg^2 on the demo blade, so its slope changes
-by less than 0.02/deg per 0.5 deg step)."""
+source: the measured stall delay on rotating blades extends some 10-20 deg past the 2D stall
+angle; the width keeps the increment's curvature below 0.04/deg^2 on the demo blade, so its
+slope changes by less than 0.02/deg per 0.5 deg step)."""
 
 ROTATION_ORDERS: tuple[str, ...] = ("extend-then-augment", "augment-then-extend")
 """Where the augmentation sits relative to the full-range extension (see
