@@ -375,9 +375,11 @@ def compute_and_store(
     )
     served = store_table(factory, served, inputs, policy)
     if not served.stored:
-        served = dataclasses.replace(
-            served, content_hash=table_content_hash(result.alpha_deg, *result.columns.values())
+        content_hash = (
+            result_content_hash(result.columns) if result.alpha_deg is None
+            else table_content_hash(result.alpha_deg, *result.columns.values())
         )
+        served = dataclasses.replace(served, content_hash=content_hash)
     RECENT_TABLES.put(memo_key, served)
     return served
 

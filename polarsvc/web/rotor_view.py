@@ -13,7 +13,7 @@ from sqlalchemy.orm import Session, sessionmaker
 
 from polarsvc import performance, pipeline
 from polarsvc.aero.errors import AeroError
-from polarsvc.pipeline import ServedTable
+from polarsvc.pipeline import CachePolicy, ServedTable
 from polarsvc.store.errors import NotFound
 
 COMPARISONS = {
@@ -84,6 +84,7 @@ def rotor_view(
     *,
     clamp: bool,
     approved_only: bool,
+    policy: CachePolicy,
 ) -> RotorView:
     """The rotor result of the blade's default blade set (``clamp`` as the page's tables),
     ``loads_at`` (query, m/s; default the rated wind speed) and ``compare`` (query, a key of
@@ -98,7 +99,7 @@ def rotor_view(
         options, rotor, _ = _options(clamp, "none")
         result = pipeline.rotor_performance(
             factory, blade_key=blade_hash, options=options, rotor_options=rotor,
-            approved_only=approved_only,
+            approved_only=approved_only, policy=policy,
         )
     except (AeroError, NotFound, KeyError) as exc:
         problems.append(f"rotor performance: {exc}")
@@ -117,6 +118,7 @@ def rotor_view(
                 other = pipeline.rotor_performance(
                     factory, blade_key=blade_hash, options=options, rotor_options=rotor,
                     approved_only=approved if approved is not None else approved_only,
+                    policy=policy,
                 )
                 comparison = pipeline.compare_performance(result, other)
             except (AeroError, NotFound, KeyError) as exc:

@@ -253,12 +253,15 @@ def add_routes(router: APIRouter) -> None:
         return csv_response(plots.series_csv(series), download_name(name, "stations", kind))
 
     # -- rotor ------------------------------------------------------------------------------
-    def rotor_data(request: Request, session, name: str) -> rotor_view.RotorView:
+    def rotor_data(
+        request: Request, session, name: str, viewer: PageReader
+    ) -> rotor_view.RotorView:
         blade = blade_store.latest_blade(session, name)
         clamp = (request.query_params.get("clamp") or "yes") != "no"
         return rotor_view.rotor_view(
             request.app.state.session_factory, blade.content_hash, request.query_params,
             clamp=clamp, approved_only=bool(request.app.state.settings.approved_only),
+            policy=viewer.cache_policy(request),
         )
 
     def rotor_curves(view: rotor_view.RotorView, kind: str):
@@ -309,7 +312,7 @@ def add_routes(router: APIRouter) -> None:
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
         _, x, curves, xlabel, ylabel, title, zero = rotor_curves(
-            rotor_data(request, session, name), kind
+            rotor_data(request, session, name, viewer), kind
         )
         body = rotor_plots.curves_svg(x, curves, xlabel=xlabel, ylabel=ylabel,
                                       title=f"{name}: {title}", zero_line=zero)
@@ -319,6 +322,6 @@ def add_routes(router: APIRouter) -> None:
     def blade_rotor_csv(
         request: Request, name: str, kind: str, viewer: PageReader, session: ReadSession
     ) -> Response:
-        x_name, x, curves, *_ = rotor_curves(rotor_data(request, session, name), kind)
+        x_name, x, curves, *_ = rotor_curves(rotor_data(request, session, name, viewer), kind)
         return csv_response(rotor_plots.curves_csv(x_name, x, curves),
                             download_name(name, "rotor", kind))

@@ -243,7 +243,7 @@ def add_routes(router: APIRouter) -> None:
         query = urlencode({"clamp": "yes" if view.clamp else "no"})
         rotor = rotor_view.rotor_view(
             _factory(request), view.content_hash, request.query_params, clamp=view.clamp,
-            approved_only=_approved_only(request),
+            approved_only=_approved_only(request), policy=viewer.cache_policy(request),
         )
         rotor_query = urlencode({
             "clamp": "yes" if view.clamp else "no", "compare": rotor.compare,

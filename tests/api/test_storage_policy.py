@@ -157,3 +157,16 @@ def test_a_table_computed_anonymously_is_stored_when_a_curator_asks(
             == curator.headers["X-Polarsvc-Content-Hash"])
     assert lineage.status_code == 200
     assert _counts(demo_factory)[0] == 1
+
+
+def test_anonymous_rotor_performance_adds_no_rows_and_no_audit_events(
+    prepared_db, demo_factory
+):
+    """Rotor results follow the same policy as blade sets: an anonymous request on a
+    public-reads service is computed and answered, and nothing is written."""
+    before = _counts(demo_factory)
+    with _client(prepared_db, public_reads=True, read_only=True) as client:
+        answer = client.get("/api/v1/blades/skerry-48/performance")
+    assert answer.status_code == 200, answer.text
+    assert answer.headers["X-Polarsvc-Stored"] == "no"
+    assert _counts(demo_factory) == before

@@ -15,7 +15,7 @@ from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.blades import BladeSetQuery
 from polarsvc.api.routers.polars import ApprovedOnlyQuery, FormatQuery, approved_only_setting
 from polarsvc.api.schemas import ERROR_RESPONSES, BladeSetSpec, ComparisonIn
-from polarsvc.api.served import served_response
+from polarsvc.api.served import cache_policy, served_response
 
 router = APIRouter(tags=["rotor performance"], responses=ERROR_RESPONSES)
 
@@ -88,7 +88,7 @@ RotorQuery = Annotated[dict[str, Any], Depends(rotor_query)]
 @router.get("/blades/{key}/performance", summary="Rotor performance of a blade set",
             description=PERFORMANCE_DESCRIPTION)
 def blade_performance(
-    key: str, request: Request, settings: SettingsDep, _: Reader, options: BladeSetQuery,
+    key: str, request: Request, settings: SettingsDep, reader: Reader, options: BladeSetQuery,
     rotor: RotorQuery,
     format: FormatQuery = None,
     part: Annotated[
@@ -101,6 +101,7 @@ def blade_performance(
     served = pipeline.rotor_performance(
         request.app.state.session_factory, blade_key=key, options=options,
         rotor_options=rotor, approved_only=approved_only_setting(settings, approved_only),
+        policy=cache_policy(settings, reader),
     )
     return served_response(request, served, fmt, part)
 
@@ -144,7 +145,7 @@ def spec_options(spec: BladeSetSpec) -> tuple[dict[str, Any], dict[str, Any]]:
         "between the two recipes and their inputs."
     ),
 )
-def compare(body: ComparisonIn, request: Request, settings: SettingsDep, _: Reader):
+def compare(body: ComparisonIn, request: Request, settings: SettingsDep, reader: Reader):
     factory = request.app.state.session_factory
     served = []
     for spec in (body.a, body.b):
@@ -152,5 +153,6 @@ def compare(body: ComparisonIn, request: Request, settings: SettingsDep, _: Read
         served.append(pipeline.rotor_performance(
             factory, blade_key=spec.blade, options=options, rotor_options=rotor_options,
             approved_only=approved_only_setting(settings, spec.approved_only),
+            policy=cache_policy(settings, reader),
         ))
     return json_response(pipeline.compare_performance(served[0], served[1]))
