@@ -164,6 +164,7 @@ def create_airfoil(
                 Airfoil.family_id == family_row.id,
                 Airfoil.thickness == thickness,
                 Airfoil.retired_at.is_(None),
+                Airfoil.name != name,  # the same airfoil created concurrently is no twin
             )
         ).first()
         if twin is not None:

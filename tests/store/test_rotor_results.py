@@ -87,10 +87,32 @@ def test_result_round_trip_and_tamper_check(seeded: sessionmaker[Session]) -> No
             derived_arrays(row)
 
 
+def _downgrade(engine, revision: str) -> None:
+    """Step the schema back to ``revision`` with the migrations' own downgrades (foreign keys
+    off around it on SQLite, as the upgrade does)."""
+    from alembic import command
+
+    from polarsvc.store.db import WRITE_OPTION, alembic_config
+
+    with engine.connect() as connection:
+        raw = connection.connection.driver_connection if engine.dialect.name == "sqlite" else None
+        if raw is not None:
+            raw.execute("PRAGMA foreign_keys=OFF")
+        try:
+            connection = connection.execution_options(**{WRITE_OPTION: True})
+            with connection.begin():
+                command.downgrade(alembic_config(connection), revision)
+        finally:
+            if raw is not None:
+                raw.execute("PRAGMA foreign_keys=ON")
+
+
 def test_database_from_before_rotor_results_upgrades(database_url: str) -> None:
+    """Rows written by the current software survive a step back to the schema before the
+    rotor kind (0002) and the upgrade to the head again; the rotor kind then stores."""
     engine = make_engine(database_url)
     try:
-        upgrade_database(engine, "0001")
+        upgrade_database(engine)
         factory = make_session_factory(engine)
         from polarsvc.store.airfoils import create_airfoil, get_or_create_family
 
@@ -107,6 +129,12 @@ def test_database_from_before_rotor_results_upgrades(database_url: str) -> None:
             )
             old_hash = table.content_hash
             revision_id = revision.id
+        _downgrade(engine, "0002")
+        with engine.connect() as connection:
+            (version,) = connection.execute(text("SELECT version_num FROM alembic_version")).one()
+            assert version == "0002"
+            (count,) = connection.execute(text("SELECT count(*) FROM derived_table")).one()
+            assert count == 1
         upgrade_database(engine)
         with session_scope(factory, write=True) as session:
             (count,) = session.execute(text("SELECT count(*) FROM derived_table")).one()
