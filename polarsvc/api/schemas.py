@@ -170,12 +170,12 @@ class TurbineIn(StrictModel):
 
     notes: Annotated[str, Field(max_length=4000)] | None = None
     rated_power_w: PositiveNumber | None = None
-    min_rotor_speed_rpm: Annotated[Number, Field(ge=0, allow_inf_nan=False)] | None = None
+    min_rotor_speed_rpm: number(ge=0) | None = None  # type: ignore[valid-type]
     max_rotor_speed_rpm: PositiveNumber | None = None
-    efficiency: Annotated[Number, Field(gt=0, le=1, allow_inf_nan=False)] | None = None
+    efficiency: number(gt=0, le=1) | None = None  # type: ignore[valid-type]
     cut_in_m_s: PositiveNumber | None = None
-    cut_out_m_s: Annotated[Number, Field(gt=0, le=100, allow_inf_nan=False)] | None = None
-    rho_kg_m3: Annotated[Number, Field(gt=0, le=5, allow_inf_nan=False)] | None = None
+    cut_out_m_s: number(gt=0, le=100) | None = None  # type: ignore[valid-type]
+    rho_kg_m3: number(gt=0, le=5) | None = None  # type: ignore[valid-type]
 
 
 class RotorOptionsIn(StrictModel):
@@ -207,8 +207,8 @@ class BladeSetSpec(StrictModel):
     cd_max: PositiveNumber | None = None
     thickness_method: Literal["linear", "pchip"] = "linear"
     clamp: bool = False
-    wind_speed_m_s: Annotated[Number, Field(gt=0, le=100, allow_inf_nan=False)] | None = None
-    rotor_speed_rpm: Annotated[Number, Field(gt=0, le=1000, allow_inf_nan=False)] | None = None
+    wind_speed_m_s: number(gt=0, le=100) | None = None  # type: ignore[valid-type]
+    rotor_speed_rpm: number(gt=0, le=1000) | None = None  # type: ignore[valid-type]
     rotor: RotorOptionsIn = RotorOptionsIn()
 
 

@@ -38,7 +38,8 @@ def _schemathesis() -> list[str]:
 
 
 @pytest.mark.xfail(
-    reason="findings on the operations merged last (paging, station packages) under review",
+    reason="ST302 on POST /api/v1/airfoils/{name}/move: a target family that does not exist "
+    "answers 404 (a body field, should be 422 naming 'family')",
     strict=False,
 )
 def test_every_operation_passes_every_check(database_url, tmp_path):

@@ -64,6 +64,10 @@ def service(request, tmp_path_factory):
     tokens = make_tokens(factory)
     try:
         with TestClient(create_app(Settings(database_url=url))) as client:
+            # the family the corpus files name exists, so each case is refused for its own fault
+            created = client.post("/api/v1/families", json={"name": "skua-test"},
+                                  headers=tokens.header("curator"))
+            assert created.status_code == 201, created.text
             yield client, factory, tokens
     finally:
         engine.dispose()
@@ -101,6 +105,9 @@ def test_the_corpus_holds_48_cases_with_their_files():
 
 
 def test_the_control_table_is_stored(client, tokens):
+    created = client.post("/api/v1/families", json={"name": "skua-test"},
+                          headers=tokens.header("curator"))
+    assert created.status_code == 201, created.text
     answer = client.post("/api/v1/polars", content=CONTROL.encode("utf-8"),
                          headers={**tokens.header("curator"), "Content-Type": "text/csv"})
     assert answer.status_code == 201, answer.text

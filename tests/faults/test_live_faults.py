@@ -24,6 +24,8 @@ import pytest
 from sqlalchemy import func, select, text
 
 from polarsvc.store import polars as polar_store
+from polarsvc.store.airfoils import create_family
+from polarsvc.store.audit import Actor
 from polarsvc.store.db import make_engine, make_session_factory, session_scope, upgrade_database
 from polarsvc.store.models import AuditEvent, PolarRevision
 from tests.api.conftest import Tokens, make_tokens
@@ -33,17 +35,23 @@ THREADS = 4
 UPLOADS_PER_THREAD = 25
 
 
+FAMILY = "skua-fault"
+
+
 def polar_csv(index: int) -> bytes:
-    """A small synthetic table (test data, no source), distinct per ``index``."""
-    lift = 0.25 + index * 1e-6
+    """A small synthetic table (test data, no source), distinct per ``index``: ten rows of an
+    attached lift line of 0.11 per deg (about 2 pi per rad), so the upload checks pass."""
+    rows = "".join(
+        f"{alpha:.1f},{0.25 + 0.11 * alpha + index * 1e-6!r},{0.0072 + 0.00005 * alpha**2:.6f},"
+        f"-0.08\n"
+        for alpha in range(-8, 12, 2)
+    )
     return (
         "# SYNTHETIC TEST DATA: fictional airfoil, not for design use\n"
-        f"# airfoil: SKUA-F{index % 7}\n# family: skua-fault\n# thickness: 0.{21 + index % 7}\n"
+        f"# airfoil: SKUA-F{index % 7}\n# family: {FAMILY}\n# thickness: 0.{21 + index % 7}\n"
         f"# reynolds: {1e6 + index * 1000.0}\n# mach: 0.0\n# surface: clean\n"
         "# source_kind: synthetic\n# reference: polarsvc fault tests\n"
-        "alpha_deg,cl,cd,cm\n"
-        f"-4.0,-0.21,0.0081,-0.071\n0.0,{lift!r},0.0072,-0.082\n4.0,0.70,0.0079,-0.085\n"
-        "8.0,1.10,0.0110,-0.080\n"
+        "alpha_deg,cl,cd,cm\n" + rows
     ).encode()
 
 
@@ -89,7 +97,11 @@ class Uploads:
 def prepared(database_url: str) -> Iterator[tuple[str, Tokens]]:
     engine = make_engine(database_url)
     upgrade_database(engine)
-    tokens = make_tokens(make_session_factory(engine))
+    factory = make_session_factory(engine)
+    tokens = make_tokens(factory)
+    with session_scope(factory, write=True) as session:
+        create_family(session, name=FAMILY, actor=Actor(name="fault-tests", role="curator",
+                                                        remote_addr=None))
     engine.dispose()
     yield database_url, tokens
 
@@ -239,8 +251,11 @@ def test_online_backup_while_a_server_writes(prepared, tmp_path):
         with ThreadPoolExecutor(THREADS) as pool:
             for thread in range(THREADS):
                 pool.submit(uploads.run, [server.base], thread * 1000, 1000, stop)
-            while len(uploads.acknowledged) < 20:
+            deadline = time.monotonic() + 120
+            while len(uploads.acknowledged) < 20 and time.monotonic() < deadline:
                 time.sleep(0.05)
+            assert len(uploads.acknowledged) >= 20, (
+                f"{uploads.failed} of {uploads.attempted} uploads refused before the backup")
             backup = subprocess.run(
                 polarsvc_command("--database-url", database_url, "db", "backup",
                                  str(destination)),
