@@ -19,7 +19,7 @@ from sqlalchemy.orm import Session
 from polarsvc.store._lookup import check_name, check_text
 from polarsvc.store.airfoils import get_airfoil, get_family
 from polarsvc.store.audit import Actor, record_event
-from polarsvc.store.errors import Conflict, InvalidValue
+from polarsvc.store.errors import Conflict, InvalidValue, NotFound
 from polarsvc.store.models import Airfoil, AirfoilAlias, PolarRevision, utc_now
 from polarsvc.store.polars import (
     get_revision,
@@ -68,7 +68,9 @@ def move_airfoil(
     Raises
     ------
     NotFound
-        Unknown airfoil or family.
+        Unknown airfoil.
+    InvalidValue
+        Unknown target family (a field of the request), or the airfoil is already in it.
     Conflict
         An active airfoil of the same thickness is in the target family.
     InvalidValue
@@ -76,7 +78,13 @@ def move_airfoil(
     """
     why = _reason(reason)
     airfoil = get_airfoil(session, name)
-    target = get_family(session, family) if family is not None else None
+    try:
+        target = get_family(session, family) if family is not None else None
+    except NotFound:
+        # the family is a field of the request body, not the resource addressed: 422
+        raise InvalidValue(
+            "family", f"family {family!r} does not exist; create it first"
+        ) from None
     before = airfoil.family.name if airfoil.family is not None else None
     if before == family:
         raise InvalidValue("family", f"airfoil {airfoil.name!r} is already in {family!r}")
