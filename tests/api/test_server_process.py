@@ -116,8 +116,10 @@ def test_a_second_server_on_a_busy_port_fails_before_printing_a_token(demo_serve
 
 
 def test_client_gets_rotor_performance_as_arrays(demo_server):
-    base, _, _ = demo_server
-    with PolarClient(base) as client:
+    base, admin_token, _ = demo_server
+    # with a token: anonymous results are computed without being stored, and lineage and
+    # verify need the stored result
+    with PolarClient(base, token=admin_token) as client:
         result = client.performance("skerry-48")
         assert result["cp"].shape == (57, 8)  # tip speed ratio 1..15 x pitch -5..30
         assert result["normal_force_n_per_m"].shape[1] == 20
