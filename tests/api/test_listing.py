@@ -132,3 +132,30 @@ def test_catalogue_page_rows_come_in_pages_with_sql_summaries(demo_factory):
     assert all(r.n_revisions == 6 and r.surfaces == ["clean", "rough"] for r in whole.rows)
     assert all(len(r.reynolds) == 3 for r in whole.rows)
     assert all(r.n_revisions == 3 and r.surfaces == ["rough"] for r in rough.rows)
+
+
+def test_a_page_of_airfoils_takes_as_many_queries_however_long(demo_client, tokens):
+    """Each airfoil's aliases and family are read for the whole page at once: a page of 7
+    airfoils issues as many SQL statements as a page of 1 (no query per row)."""
+    from sqlalchemy import Engine
+
+    reader = tokens.header("reader")
+    counts = {}
+    demo_client.get("/api/v1/airfoils", headers=reader)  # the total is counted once, kept
+    for limit in (1, 7):
+        statements: list[str] = []
+
+        def record(conn, cursor, statement, parameters, context, executemany,
+                   statements=statements):
+            statements.append(statement)
+
+        event.listen(Engine, "before_cursor_execute", record)
+        try:
+            response = demo_client.get("/api/v1/airfoils", params={"limit": limit},
+                                       headers=reader)
+        finally:
+            event.remove(Engine, "before_cursor_execute", record)
+        assert response.status_code == 200 and len(response.json()) == limit
+        counts[limit] = len(statements)
+    assert counts[7] == counts[1], counts
+
