@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -38,6 +39,14 @@ from polarsvc.store.models import (
     DerivedInput,
     DerivedTable,
     PolarRevision,
+)
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    take_page,
 )
 
 
@@ -328,3 +337,54 @@ def derived_using_revision(session: Session, *, revision_id: int) -> Sequence[De
         .order_by(DerivedTable.id)
     )
     return session.scalars(statement).all()
+
+
+@dataclass(frozen=True)
+class DerivedUse:
+    """A cached table seen from one of its inputs (reverse lineage): its identity, never
+    its payload."""
+
+    id: int
+    kind: str
+    recipe_hash: str
+    content_hash: str
+    blade: str | None
+    created_at: dt.datetime
+
+
+def page_derived_using_revision(
+    session: Session, *, revision_id: int, after: str | None = None,
+    limit: int = DEFAULT_PAGE_SIZE,
+) -> Page[DerivedUse]:
+    """One page of the reverse lineage of a revision, oldest first (keyset pagination on
+    the cache row id, :mod:`polarsvc.store.paging`); payloads, recipes and reports are not
+    read. The total is counted.
+
+    Raises
+    ------
+    InvalidValue
+        On a bad cursor or limit.
+    """
+    limit = check_limit(limit)
+    statement = (
+        select(
+            DerivedTable.id, DerivedTable.kind, DerivedTable.recipe_hash,
+            DerivedTable.content_hash, BladeDefinition.name, DerivedTable.created_at,
+        )
+        .join(DerivedInput, DerivedInput.derived_id == DerivedTable.id)
+        .outerjoin(BladeDefinition, BladeDefinition.id == DerivedTable.blade_id)
+        .where(DerivedInput.polar_id == revision_id)
+    )
+    if after is not None:
+        (after_id,) = decode_cursor(after, (int,))
+        statement = statement.where(DerivedTable.id > after_id)
+    rows = [
+        DerivedUse(*row)
+        for row in session.execute(statement.order_by(DerivedTable.id).limit(limit + 1))
+    ]
+    total = count_rows(
+        session,
+        select(func.count()).select_from(DerivedInput).where(DerivedInput.polar_id == revision_id),
+        ("used-by", revision_id),
+    )
+    return take_page(rows, limit, lambda use: (use.id,), total)
