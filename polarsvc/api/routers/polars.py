@@ -7,6 +7,7 @@ from typing import Annotated, Any, Literal
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from pydantic import WithJsonSchema
 from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
 from starlette.concurrency import run_in_threadpool
 
 from polarsvc import aero, pipeline, recipes
@@ -291,15 +292,16 @@ def get_polar(content_hash: HashKey, session: ReadSession, principal: Reader):
 @router.get(
     "/polars/{content_hash}/table", responses=TABLE_RESPONSES,
     summary="A revision's table as stored")
-def get_polar_table(
-    content_hash: HashKey, request: Request, session: ReadSession, _: Reader,
-    format: FormatQuery = None,
+async def get_polar_table(
+    content_hash: HashKey, request: Request, _: Reader, format: FormatQuery = None,
 ):
     fmt = choose_format(request, format)
     # the identity and review state are read each time (small, indexed); the table itself
-    # is immutable under its hash and comes from memory after the first request
-    full_hash, airfoil_name, review_state = polar_store.revision_brief(session, content_hash)
-    table = polar_store.table_of(session, full_hash)
+    # is immutable under its hash and comes from memory after the first request. The
+    # database work is one trip to a worker thread (a small read does not pay for several)
+    full_hash, airfoil_name, review_state, table = await run_in_threadpool(
+        _stored_table, request.app.state.session_factory, content_hash
+    )
     columns = {name: values for name, values in table.items() if name != "alpha_deg"}
     meta = {
         "kind": "stored",
@@ -312,6 +314,21 @@ def get_polar_table(
         request, fmt=fmt, content_hash=full_hash, alpha_deg=table["alpha_deg"],
         columns=columns, meta=meta,
     )
+
+
+def _stored_table(
+    factory: sessionmaker[Session], key: str
+) -> tuple[str, str, str, dict[str, Any]]:
+    """The full hash, airfoil name, review state and decoded table of a revision: one
+    indexed read on a connection, and the table from memory (a session reads it from the
+    database the first time)."""
+    with factory.kw["bind"].connect() as connection:
+        full_hash, airfoil_name, review_state = polar_store.revision_brief(connection, key)
+    table = polar_store.REVISION_TABLES.peek(full_hash)
+    if table is None:
+        with session_scope(factory, write=False) as session:
+            table = polar_store.table_of(session, full_hash)
+    return full_hash, airfoil_name, review_state, table
 
 
 GridStep = Annotated[
