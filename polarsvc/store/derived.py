@@ -34,6 +34,7 @@ from polarsvc.store._lookup import (
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import AmbiguousKey, IntegrityProblem, InvalidValue, NotFound
 from polarsvc.store.models import (
+    CACHE_WRITE_ACTION,
     DERIVED_KINDS,
     BladeDefinition,
     DerivedInput,
@@ -136,7 +137,7 @@ def put_derived(
     key = recipe_hash(recipe)
     if alpha_deg is None:
         try:
-            content_hash, parts = canonical_result(columns)
+            content_hash, payload = canonical_result(columns)
         except ValueError as exc:
             raise InvalidValue("columns", str(exc)) from None
         layout: dict[str, Any] = {
@@ -144,7 +145,7 @@ def put_derived(
         }
     else:
         alpha, arrays = _stack(alpha_deg, columns)
-        content_hash, parts = canonical_table(alpha, *arrays)
+        content_hash, payload = canonical_table(alpha, *arrays)
         layout = {"columns": list(columns), "alpha_size": int(alpha.size),
                   "shape": list(arrays[0].shape)}
     existing = get_derived(session, recipe_hash=key)
@@ -164,7 +165,7 @@ def put_derived(
         kind=kind,
         recipe=canonical_json(recipe).decode("utf-8"),
         content_hash=content_hash,
-        payload=b"".join(parts),
+        payload=payload,
         payload_shape=canonical_json(layout).decode("utf-8"),
         blade_id=blade_id,
         reports=None if reports is None else _reports_text(reports),
@@ -186,7 +187,7 @@ def put_derived(
     record_event(
         session,
         actor=actor,
-        action="derived.store",
+        action=CACHE_WRITE_ACTION,
         object_kind="derived_table",
         object_key=key,
         after_hash=content_hash,
