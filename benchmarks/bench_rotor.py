@@ -10,7 +10,8 @@ Measured in one run, interleaved, so the ratios hold on a shared machine:
 2. a full power curve plus annual energy (:func:`polarsvc.performance.compute_performance`:
    Cp surface with refined maximum, Cp(lambda), rated wind speed, pitch to hold rated
    power, spanwise solution at every curve speed, Rayleigh energy for the IEC classes)
-   against the same computation with every BEM solve done by the plain per-station loop;
+   against the same computation with every BEM solve (``PreparedRotor.solve`` and
+   ``PreparedRotor.coefficients``) done by the plain per-station loop;
 3. cold requests of ``GET /blades/skerry-48/performance`` to a real uvicorn server on
    loopback: the blade set is cached, the rotor result is not (each request changes the air
    density by 1e-9 kg/m^3, so each is a new recipe), response received as JSON.
@@ -159,6 +160,20 @@ def plain_solve(geometry, alpha_deg, cl, cd, tip_speed_ratio, pitch_deg=0.0, *,
     )
 
 
+def plain_prepared_solve(self, tip_speed_ratio, pitch_deg=0.0, *, wind_speed_m_s=None,
+                         rho_kg_m3=bem.ISA_DENSITY_KG_M3) -> bem.BemResult:
+    """:meth:`polarsvc.rotor.bem.PreparedRotor.solve` done by :func:`plain_solve`."""
+    alpha, cl, cd = self.inputs
+    return plain_solve(self.geometry, alpha, cl, cd, tip_speed_ratio, pitch_deg,
+                       wind_speed_m_s=wind_speed_m_s, rho_kg_m3=rho_kg_m3, **self.options)
+
+
+def plain_coefficients(self, tip_speed_ratio, pitch_deg=0.0):
+    """:meth:`polarsvc.rotor.bem.PreparedRotor.coefficients` done by :func:`plain_solve`."""
+    result = plain_prepared_solve(self, tip_speed_ratio, pitch_deg)
+    return result.cp, result.ct, 0.0
+
+
 def demo_inputs() -> tuple[dict, np.ndarray, np.ndarray, np.ndarray]:
     import json
 
@@ -236,9 +251,8 @@ def main() -> int:
         arrays, _ = performance.compute_performance(alpha, cl, cd, blade, params)
         fast_curve.append(time.perf_counter() - start)
         start = time.perf_counter()
-        with mock.patch.object(rotor.surface, "solve", plain_solve), \
-                mock.patch.object(rotor.power, "solve", plain_solve), \
-                mock.patch.object(rotor, "solve", plain_solve):
+        with mock.patch.object(bem.PreparedRotor, "solve", plain_prepared_solve), \
+                mock.patch.object(bem.PreparedRotor, "coefficients", plain_coefficients):
             reference, _ = performance.compute_performance(alpha, cl, cd, blade, params)
         plain_curve.append(time.perf_counter() - start)
     np.testing.assert_allclose(arrays["annual_energy_wh"], reference["annual_energy_wh"],

@@ -25,7 +25,7 @@ from polarsvc.aero.errors import ParameterError, UnknownMethodError
 ROTOR_CAUTION = rotor.CAUTION
 
 GRID_DEFAULTS = {
-    "tip_speed_ratios": {"start": 1.0, "stop": 15.0, "step": 0.25},
+    "tip_speed_ratios": {"start": 1.0, "stop": 15.0, "step": 0.5},
     "pitches_deg": {"start": -5.0, "stop": 30.0, "step": 5.0},
 }
 """Cp surface grid; its maximum, refined between the grid points, gives the best tip speed
@@ -208,10 +208,10 @@ def compute_performance(
     options = _solve_options(params)
     turbine = rotor.TurbineData.from_mapping(params["turbine"])
     tsr = grid_values(params["tip_speed_ratios"])
+    prepared = rotor.prepare(g, alpha_deg, cl, cd, **options)
     surface = rotor.cp_surface(g, alpha_deg, cl, cd, tsr, grid_values(params["pitches_deg"]),
-                               **options)
+                               rotor=prepared)
     best_tsr, fine_pitch = surface.best_tip_speed_ratio, surface.best_pitch_deg
-    along = rotor.solve(g, alpha_deg, cl, cd, tsr, fine_pitch, **options)
     step = params["wind_step_m_s"]
     count = round((turbine.cut_out_m_s - turbine.cut_in_m_s) / step)
     speeds = np.append(
@@ -220,14 +220,12 @@ def compute_performance(
     )
     speeds = np.unique(np.append(speeds, turbine.cut_out_m_s))
     speeds = speeds[(speeds >= turbine.cut_in_m_s) & (speeds <= turbine.cut_out_m_s)]
-    rated = rotor.rated_wind_speed(g, alpha_deg, cl, cd, turbine, best_tsr, fine_pitch,
-                                   options)
-    if rated is not None:
-        speeds = np.unique(np.append(speeds, rated))
     states = rotor.operating_states(
         g, alpha_deg, cl, cd, turbine, speeds, best_tip_speed_ratio=best_tsr,
-        fine_pitch_deg=fine_pitch, rated_wind_speed_m_s=rated, **options,
+        fine_pitch_deg=fine_pitch, fine_pitch_tip_speed_ratio=tsr, rotor=prepared,
     )
+    rated = states.rated_wind_speed_m_s
+    speeds = states.wind_speed_m_s
     bem = states.bem
     winds = distributions(params)
     energies = [
@@ -241,8 +239,8 @@ def compute_performance(
         "cp": surface.cp,
         "ct": surface.ct,
         "optimum": np.array([best_tsr, fine_pitch, surface.cp_max]),
-        "cp_lambda": along.cp,
-        "ct_lambda": along.ct,
+        "cp_lambda": states.fine_pitch_cp,
+        "ct_lambda": states.fine_pitch_ct,
         "wind_speed_m_s": speeds,
         "rotor_speed_rpm": states.rotor_speed_rpm,
         "curve_tip_speed_ratio": states.tip_speed_ratio,
@@ -268,7 +266,7 @@ def compute_performance(
         "distributions": [d.label for d in winds],
         "control_modes": list(CONTROL_MODES),
         "assumptions": list(bem.assumptions),
-        "max_abs_residual": max(bem.max_abs_residual, along.max_abs_residual),
+        "max_abs_residual": states.max_abs_residual,
         "angle_outside_table": bool(bem.outside_table.any()),
         "integration": "trapezoid rule over the stations, first to last station",
         "moments": "about the hub radius, one blade, rotor-plane axes, aerodynamic only",

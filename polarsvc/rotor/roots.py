@@ -44,7 +44,7 @@ def bracketed_roots(
     f_lower: FloatArray,
     f_upper: FloatArray,
     *,
-    f_tol: float = 1e-13,
+    f_tol: float | FloatArray = 1e-13,
     x_tol: float = 4e-16,
     max_iterations: int = 200,
     bisect_after: int = 60,
@@ -59,8 +59,8 @@ def bracketed_roots(
         Bracket ends per element.
     f_lower, f_upper : ndarray
         Function values at the ends; ``f_lower * f_upper <= 0`` is required (checked).
-    f_tol : float
-        An element stops when ``|f| <= f_tol``.
+    f_tol : float or ndarray
+        An element stops when ``|f| <= f_tol`` (one value, or one per element).
     x_tol : float
         ... or when its bracket is narrower than ``x_tol * max(1, |x|)`` (a few units in
         the last place).
@@ -78,11 +78,12 @@ def bracketed_roots(
     if np.any(fa * fb > 0.0) or not (np.all(np.isfinite(fa)) and np.all(np.isfinite(fb))):
         raise ValueError("every element needs a finite bracket with a sign change")
     count = a.size
+    tolerance = np.broadcast_to(np.asarray(f_tol, dtype=np.float64), (count,))
     iterations = np.zeros(count, dtype=np.int64)
     # the bracket end with the smaller |f| is the current best estimate
     best_x = np.where(np.abs(fa) <= np.abs(fb), a, b)
     best_f = np.where(np.abs(fa) <= np.abs(fb), fa, fb)
-    done = (np.abs(best_f) <= f_tol) | (np.abs(b - a) <= x_tol * np.maximum(1.0, np.abs(a)))
+    done = (np.abs(best_f) <= tolerance) | (np.abs(b - a) <= x_tol * np.maximum(1.0, np.abs(a)))
     active = np.flatnonzero(~done)
     for _ in range(max_iterations):
         if active.size == 0:
@@ -111,7 +112,7 @@ def bracketed_roots(
         best_x[active] = np.where(better, c, best_x[active])
         best_f[active] = np.where(better, fc, best_f[active])
         width = np.abs(c - new_a)
-        finished = (np.abs(fc) <= f_tol) | (fc == 0.0) | (
+        finished = (np.abs(fc) <= tolerance[active]) | (fc == 0.0) | (
             width <= x_tol * np.maximum(1.0, np.abs(c))
         )
         active = active[~finished]
