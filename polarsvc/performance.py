@@ -79,10 +79,91 @@ RESULT_ARRAYS = {
     "normal_force_n_per_m": "normal force per unit length per wind speed and station [N/m]",
     "tangential_force_n_per_m": "tangential force per unit length per wind speed and "
                                 "station [N/m]",
+    "reynolds_prepared": "chord Reynolds number each station's table was prepared for [-] "
+                         "(NaN where not known)",
+    "reynolds_min": "lowest chord Reynolds number W c / nu met per station over the power "
+                    "curve [-]",
+    "reynolds_max": "highest chord Reynolds number W c / nu met per station over the power "
+                    "curve [-]",
     "annual_energy_wh": "annual energy per wind distribution (8766 h) [Wh]",
     "mean_power_w": "mean electrical power per wind distribution [W]",
     "capacity_factor": "capacity factor per wind distribution [-]",
 }
+
+
+KINEMATIC_VISCOSITY_M2_S = 1.46e-5
+"""Kinematic viscosity of air at ISA sea level [m^2/s] for the station Reynolds numbers met
+over the power curve: 1.4607e-5 m^2/s in the sea-level row of the U.S. Standard Atmosphere
+1976 tables (NOAA, NASA, USAF; the ISA of ISO 2533:1975 agrees there), rounded (from
+memory). The blade-set tables use rho / mu = 1.225 / 1.789e-5 = 1.4604e-5 m^2/s."""
+
+REYNOLDS_FACTOR_LIMIT = 2.0
+"""A station is listed in the warnings when the Reynolds numbers met over the power curve
+reach beyond twice, or below half, the Reynolds number its table was prepared for (common
+practice, no source: section data are usually taken as valid within about a factor of two
+in Re away from transition-sensitive conditions)."""
+
+
+def reynolds_met(
+    wind_speed_m_s: np.ndarray,
+    tip_speed_ratio: np.ndarray,
+    radius_m: np.ndarray,
+    rotor_radius_m: float,
+    chord_m: np.ndarray,
+    axial_induction: np.ndarray,
+    tangential_induction: np.ndarray,
+    kinematic_viscosity_m2_s: float = KINEMATIC_VISCOSITY_M2_S,
+) -> np.ndarray:
+    """Chord Reynolds number ``W c / nu`` per wind speed and station, with the relative
+    speed of the BEM solution ``W = U sqrt((1 - a)^2 + (lambda r / R (1 + a'))^2)`` (Burton
+    et al. 2011, Wind Energy Handbook, sec. 3.5). Shapes: speeds ``(m,)``, stations
+    ``(n,)``, inductions ``(m, n)``."""
+    speed = np.asarray(wind_speed_m_s, dtype=np.float64)[:, None]
+    local = np.asarray(tip_speed_ratio, dtype=np.float64)[:, None] * (
+        np.asarray(radius_m, dtype=np.float64) / float(rotor_radius_m)
+    )
+    relative = speed * np.sqrt((1.0 - axial_induction) ** 2
+                               + (local * (1.0 + tangential_induction)) ** 2)
+    return relative * np.asarray(chord_m, dtype=np.float64) / kinematic_viscosity_m2_s
+
+
+def reynolds_report(
+    radius_m: np.ndarray, prepared: np.ndarray, low: np.ndarray, high: np.ndarray
+) -> dict[str, Any]:
+    """What the result says about the station Reynolds numbers: viscosity and its source,
+    the factor, and every station whose range met leaves [prepared / 2, 2 x prepared]."""
+    outside = []
+    for station, (r, re0, re_low, re_high) in enumerate(
+        zip(radius_m, prepared, low, high, strict=True)
+    ):
+        if not math.isfinite(float(re0)):
+            continue
+        if re_high > REYNOLDS_FACTOR_LIMIT * re0 or re_low < re0 / REYNOLDS_FACTOR_LIMIT:
+            outside.append({
+                "station": station, "radius_m": float(r), "prepared": float(re0),
+                "min": float(re_low), "max": float(re_high),
+            })
+    return {
+        "definition": "W c / nu per station at every wind speed of the power curve, "
+                      "W = U sqrt((1 - a)^2 + (lambda r / R (1 + a'))^2) of the BEM solution",
+        "kinematic_viscosity_m2_s": KINEMATIC_VISCOSITY_M2_S,
+        "viscosity_source": "ISA sea level, U.S. Standard Atmosphere 1976 table "
+                            "(1.4607e-5 m^2/s, rounded)",
+        "factor_limit": REYNOLDS_FACTOR_LIMIT,
+        "factor_limit_source": "common practice, no source",
+        "stations_outside": outside,
+    }
+
+
+def reynolds_warnings(report: Mapping[str, Any]) -> list[str]:
+    """One sentence per station of ``report["stations_outside"]``."""
+    return [
+        f"station {s['station']} (r = {s['radius_m']:g} m): Reynolds numbers "
+        f"{s['min']:.3g}..{s['max']:.3g} over the power curve against {s['prepared']:.3g} "
+        f"its table was prepared for (beyond a factor of {report['factor_limit']:g}); the "
+        "table is used as prepared"
+        for s in report["stations_outside"]
+    ]
 
 
 def _grid_block(name: str, block: Mapping[str, Any] | None) -> dict[str, float]:
@@ -198,9 +279,14 @@ def compute_performance(
     cd: np.ndarray,
     blade: Mapping[str, Any],
     params: Mapping[str, Any],
+    prepared_reynolds: Sequence[float] | np.ndarray | None = None,
 ) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
     """Cp surface, Cp(lambda), power curve, spanwise solution at every curve speed and
-    annual energy of a blade with its station tables (``cl``, ``cd``: stations x angles).
+    annual energy of a blade with its station tables (``cl``, ``cd``: stations x angles),
+    and the station Reynolds numbers met over the power curve against
+    ``prepared_reynolds``, the ones the tables were prepared for (the tables are used as
+    they are at every wind speed; stations beyond :data:`REYNOLDS_FACTOR_LIMIT` are listed
+    in the warnings and assumptions).
 
     Returns the named arrays (:data:`RESULT_ARRAYS`, in that order) and the reports.
     """
@@ -233,6 +319,13 @@ def compute_performance(
                             rated_power_w=turbine.rated_power_w)
         for d in winds
     ]
+    met = reynolds_met(speeds, states.tip_speed_ratio, g.radius_m, g.rotor_radius_m,
+                       g.chord_m, bem.axial_induction, bem.tangential_induction)
+    prepared_re = (np.full(g.size, np.nan) if prepared_reynolds is None
+                   else np.asarray(prepared_reynolds, dtype=np.float64))
+    if prepared_re.shape != (g.size,):
+        raise ParameterError("prepared_reynolds", f"needs one value per station ({g.size})")
+    reynolds = reynolds_report(g.radius_m, prepared_re, met.min(axis=0), met.max(axis=0))
     arrays: dict[str, np.ndarray] = {
         "tip_speed_ratio": surface.tip_speed_ratio,
         "pitch_deg": surface.pitch_deg,
@@ -257,6 +350,9 @@ def compute_performance(
         "rated_wind_speed_m_s": np.array([np.nan if rated is None else rated]),
         "radius_m": g.radius_m,
         **{name: getattr(bem, name) for name in STATION_ARRAYS},
+        "reynolds_prepared": prepared_re,
+        "reynolds_min": met.min(axis=0),
+        "reynolds_max": met.max(axis=0),
         "annual_energy_wh": np.array([e.energy_wh for e in energies]),
         "mean_power_w": np.array([e.mean_power_w for e in energies]),
         "capacity_factor": np.array([e.capacity_factor for e in energies], dtype=float),
@@ -265,7 +361,9 @@ def compute_performance(
     reports = {
         "distributions": [d.label for d in winds],
         "control_modes": list(CONTROL_MODES),
-        "assumptions": list(bem.assumptions),
+        "assumptions": [*bem.assumptions, *reynolds_warnings(reynolds)],
+        "warnings": reynolds_warnings(reynolds),
+        "reynolds": reynolds,
         "max_abs_residual": states.max_abs_residual,
         "angle_outside_table": bool(bem.outside_table.any()),
         "integration": "trapezoid rule over the stations, first to last station",
