@@ -380,12 +380,17 @@ CURVE_COLUMNS = (
     "torque_n_m", "root_flap_moment_n_m", "root_edge_moment_n_m",
 )
 
-TABLE_PARTS = ("curve", "cp", "cp_lambda", "stations", "energy")
-"""Parts of a rotor result as flat tables (the CSV form): the power curve (one row per
-wind speed), the Cp surface (long: one row per tip speed ratio and pitch), Cp along the
-tip speed ratio at the fine pitch, the spanwise solution (long: one row per wind speed and
-station) and the annual energy (one row per wind distribution, in the order of the
-``distributions`` report)."""
+TABLE_PARTS = ("curve", "cp", "cp_lambda", "stations", "energy", "optimum", "reynolds")
+"""Parts of a rotor result as flat tables (the CSV form, and the binary and JSON forms when
+a part is asked for): the power curve (one row per wind speed), the Cp surface (long: one
+row per tip speed ratio and pitch), Cp along the tip speed ratio at the fine pitch, the
+spanwise solution (long: one row per wind speed and station), the annual energy (one row
+per wind distribution, in the order of the ``distributions`` report), the optimum (one
+row: best tip speed ratio, fine pitch, maximum Cp, rated wind speed) and the station
+Reynolds numbers (one row per station: prepared, lowest and highest met)."""
+
+DEFAULT_CSV_PART = "curve"
+"""The part a CSV answer carries when none is named."""
 
 
 def table_part(arrays: Mapping[str, np.ndarray], part: str) -> dict[str, np.ndarray]:
@@ -410,7 +415,77 @@ def table_part(arrays: Mapping[str, np.ndarray], part: str) -> dict[str, np.ndar
                 "annual_energy_wh": arrays["annual_energy_wh"],
                 "mean_power_w": arrays["mean_power_w"],
                 "capacity_factor": arrays["capacity_factor"]}
+    if part == "optimum":
+        optimum = arrays["optimum"]
+        return {"best_tip_speed_ratio": optimum[0:1], "fine_pitch_deg": optimum[1:2],
+                "cp_max": optimum[2:3],
+                "rated_wind_speed_m_s": arrays["rated_wind_speed_m_s"]}
+    if part == "reynolds":
+        return {"radius_m": arrays["radius_m"],
+                "reynolds_prepared": arrays["reynolds_prepared"],
+                "reynolds_min": arrays["reynolds_min"],
+                "reynolds_max": arrays["reynolds_max"]}
     raise UnknownMethodError("part", part, TABLE_PARTS)
+
+
+COMPARISON_PARTS = ("curve", "cp_lambda", "energy", "rated")
+"""Parts of a comparison as flat tables: the power curves (one row per wind speed), Cp
+along the tip speed ratio, the annual energy (one row per wind distribution present in
+both, in the order of the ``distributions`` metadata) and each result at its own rated
+wind speed (one row; NaN where rated power is never reached)."""
+
+COMPARISON_ARRAY_BLOCKS = ("cp_lambda", "power_curve", "annual_energy", "at_rated_wind_speed",
+                           "rated")
+RATED_QUANTITIES = ("wind_speed_m_s", "thrust_n", "root_flap_moment_n_m",
+                    "root_edge_moment_n_m")
+
+
+def _column(values: Any) -> np.ndarray:
+    return np.array([np.nan if v is None else v for v in values], dtype=np.float64)
+
+
+def comparison_part(comparison: Mapping[str, Any], part: str) -> dict[str, np.ndarray]:
+    """One part of a comparison (:func:`compare_results`) as one-dimensional columns of one
+    length (None written as NaN)."""
+    if part == "curve":
+        block = comparison["power_curve"]
+        return {name: _column(block[name])
+                for name in ("wind_speed_m_s", "a_w", "b_w", "delta_w", "delta_percent")}
+    if part == "cp_lambda":
+        block = comparison["cp_lambda"]
+        return {name: _column(block[name]) for name in ("tip_speed_ratio", "a", "b", "delta")}
+    if part == "energy":
+        rows = comparison["annual_energy"]
+        names = ("a_mwh", "b_mwh", "delta_mwh", "delta_percent", "a_capacity_factor",
+                 "b_capacity_factor")
+        return {"distribution": np.arange(len(rows), dtype=np.float64),
+                **{name: _column([row[name] for row in rows]) for name in names}}
+    if part == "rated":
+        columns = {}
+        for side in ("a", "b"):
+            values = comparison["rated"][side]
+            for name in RATED_QUANTITIES:
+                columns[f"{side}_{name}"] = _column([None if values is None else values[name]])
+        return columns
+    raise UnknownMethodError("part", part, COMPARISON_PARTS)
+
+
+def comparison_meta(comparison: Mapping[str, Any], part: str | None) -> dict[str, Any]:
+    """What a comparison says beside its arrays (identities, recipe differences, optimum,
+    cautions), the part and the wind distributions named by the energy rows."""
+    meta = {key: value for key, value in comparison.items()
+            if key not in COMPARISON_ARRAY_BLOCKS}
+    meta["distributions"] = [row["distribution"] for row in comparison["annual_energy"]]
+    if part is not None:
+        meta["part"] = part
+    return meta
+
+
+def comparison_arrays(comparison: Mapping[str, Any]) -> dict[str, np.ndarray]:
+    """Every part of a comparison, columns named ``<part>.<column>``."""
+    return {f"{part}.{name}": values
+            for part in COMPARISON_PARTS
+            for name, values in comparison_part(comparison, part).items()}
 
 
 def station_solution_at(
