@@ -16,6 +16,10 @@ Measured in one run, interleaved, so the ratios hold on a shared machine:
    loopback: the blade set is cached, the rotor result is not (each request changes the air
    density by 1e-9 kg/m^3, so each is a new recipe), response received as JSON.
 
+Besides wall-clock times it prints the CPU time this process spent (``time.process_time``;
+the server runs in a thread of this process), which a machine shared with other jobs
+inflates far less than the wall clock.
+
 Demo data: seed_polars/ (synthetic). Options: ``--repeats N`` (default 9).
 """
 
@@ -188,7 +192,7 @@ def free_port() -> int:
         return sock.getsockname()[1]
 
 
-def cold_requests(repeats: int) -> tuple[list[float], float]:
+def cold_requests(repeats: int) -> tuple[list[float], float, list[float]]:
     """Cold rotor requests on a cached blade set, over HTTP to a real server."""
     folder = tempfile.mkdtemp(prefix="bench-rotor-")
     url = f"sqlite:///{folder}/bench.db"
@@ -202,7 +206,8 @@ def cold_requests(repeats: int) -> tuple[list[float], float]:
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     base = f"http://127.0.0.1:{port}/api/v1"
-    samples = []
+    samples: list[float] = []
+    cpu_samples: list[float] = []
     try:
         with httpx.Client(timeout=120) as client:
             while True:
@@ -216,15 +221,17 @@ def cold_requests(repeats: int) -> tuple[list[float], float]:
             first_s = time.perf_counter() - start
             assert first.status_code == 200, first.text
             for i in range(repeats):
+                cpu = time.process_time()
                 start = time.perf_counter()
                 answer = client.get(base + "/blades/skerry-48/performance",
                                     params={"rho_kg_m3": 1.225 + (i + 1) * 1e-9})
                 samples.append(time.perf_counter() - start)
+                cpu_samples.append(time.process_time() - cpu)
                 assert answer.headers["x-polarsvc-cache"] == "miss"
     finally:
         server.should_exit = True
         thread.join(timeout=10)
-    return samples, first_s
+    return samples, first_s, cpu_samples
 
 
 def main() -> int:
@@ -238,6 +245,7 @@ def main() -> int:
     fine = -2.5
 
     fast_cp, plain_cp, fast_curve, plain_curve = [], [], [], []
+    fast_curve_cpu: list[float] = []
     for _ in range(args.repeats):
         start = time.perf_counter()
         vectorised = rotor.solve(geometry, alpha, cl, cd, tsr, fine)
@@ -247,9 +255,11 @@ def main() -> int:
         plain_cp.append(time.perf_counter() - start)
     np.testing.assert_allclose(vectorised.cp, looped.cp, atol=1e-10)
     for _ in range(max(3, args.repeats // 3)):
+        cpu = time.process_time()
         start = time.perf_counter()
         arrays, _ = performance.compute_performance(alpha, cl, cd, blade, params)
         fast_curve.append(time.perf_counter() - start)
+        fast_curve_cpu.append(time.process_time() - cpu)
         start = time.perf_counter()
         with mock.patch.object(bem.PreparedRotor, "solve", plain_prepared_solve), \
                 mock.patch.object(bem.PreparedRotor, "coefficients", plain_coefficients):
@@ -257,7 +267,7 @@ def main() -> int:
         plain_curve.append(time.perf_counter() - start)
     np.testing.assert_allclose(arrays["annual_energy_wh"], reference["annual_energy_wh"],
                                rtol=1e-6)
-    cold, first = cold_requests(args.repeats)
+    cold, first, cold_cpu = cold_requests(args.repeats)
     load = os.getloadavg()
     print(f"load average (1, 5, 15 min): {load[0]:.2f} {load[1]:.2f} {load[2]:.2f}; "
           f"{os.cpu_count()} cores; repeats {args.repeats}")
@@ -267,6 +277,8 @@ def main() -> int:
         ("power curve + annual energy: performance.compute_performance", fast_curve),
         ("power curve + annual energy, BEM by the brentq loop", plain_curve),
         ("cold GET /blades/skerry-48/performance (blade set cached), HTTP", cold),
+        ("  CPU time of this process: compute_performance", fast_curve_cpu),
+        ("  CPU time of this process (server and client): cold GET", cold_cpu),
     ]
     for label, samples in rows:
         print(f"{label:70s} median {median_ms(samples):9.2f} ms  (min {1e3 * min(samples):.2f})")

@@ -102,17 +102,20 @@ def _narrow_windmill_brackets(
     upper: FloatArray,
     f_lower: FloatArray,
     f_upper: FloatArray,
+    known: tuple[FloatArray, FloatArray] | None = None,
 ) -> None:
     """Split the bracket (0, pi/2] at the inflow angle without induction, atan(1/lambda_r),
     and at half of it, and keep the first part with a sign change (in place). The root of
     a loaded windmill lies mostly between the two, so the root finder starts from a bracket
     a fraction of the width (fewer iterations); any part with a sign change holds a root
-    of Ning's residual in (0, pi/2]."""
+    of Ning's residual in (0, pi/2]. ``known``: the residual at the two points already
+    evaluated for ``chosen``."""
     if chosen.size == 0:
         return
     free = np.arctan(1.0 / lambda_r[chosen])
     points = [np.maximum(0.5 * free, lower[chosen]), np.maximum(free, lower[chosen])]
-    values = [f(points[0], chosen), f(points[1], chosen)]
+    values = list(known) if known is not None else [f(points[0], chosen),
+                                                   f(points[1], chosen)]
     ends = [lower[chosen], points[0], points[1], upper[chosen]]
     f_ends = [f_lower[chosen], values[0], values[1], f_upper[chosen]]
     done = np.zeros(chosen.size, dtype=bool)
@@ -614,8 +617,13 @@ class PreparedRotor:
         half_pi = 0.5 * math.pi
         lower = np.full(count, eps)
         upper = np.full(count, half_pi)
-        f_lower = f(lower, None)
-        f_upper = f(upper, None)
+        # Ning's bracket ends and the two points splitting the windmill bracket (see
+        # _narrow_windmill_brackets), evaluated in one call
+        free = np.arctan(1.0 / elements.lambda_r)
+        start = f(np.concatenate([lower, upper, np.maximum(0.5 * free, eps),
+                                  np.maximum(free, eps)]),
+                  np.tile(np.arange(count), 4)).reshape(4, count)
+        f_lower, f_upper = start[0].copy(), start[1].copy()
         region = np.full(count, REGION_WINDMILL, dtype=np.int8)
         missing = np.flatnonzero(f_lower * f_upper > 0.0)
         if missing.size:
@@ -637,8 +645,9 @@ class PreparedRotor:
                 if unbracketed.size:
                     _scan_brackets(f, unbracketed, lower, upper, f_lower, f_upper, region,
                                    rows, ops)
-        _narrow_windmill_brackets(f, np.flatnonzero(region == REGION_WINDMILL),
-                                  elements.lambda_r, lower, upper, f_lower, f_upper)
+        windmill = np.flatnonzero(region == REGION_WINDMILL)
+        _narrow_windmill_brackets(f, windmill, elements.lambda_r, lower, upper, f_lower,
+                                  f_upper, (start[2][windmill], start[3][windmill]))
         roots = bracketed_roots(f, lower, upper, f_lower, f_upper, f_tol=RESIDUAL_TOLERANCE)
         if not np.all(roots.converged):
             bad = int(np.flatnonzero(~roots.converged)[0])
