@@ -7,6 +7,7 @@ their shapes are documented in the endpoint descriptions and in the README.
 from __future__ import annotations
 
 import datetime as dt
+import math
 from typing import Annotated, Literal
 
 from fastapi import Path, Query
@@ -24,7 +25,7 @@ from pydantic import (
 from polarsvc import performance
 from polarsvc.formats.binary import ARROW_MEDIA_TYPE, NPZ_MEDIA_TYPE
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
-from polarsvc.rotor.power import MIN_RATED_POWER_W
+from polarsvc.rotor.power import MIN_CUT_IN_M_S, MIN_RATED_POWER_W
 from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
 
 LimitQuery = Annotated[
@@ -39,6 +40,20 @@ AfterQuery = Annotated[
 PAGE_SIZE = DEFAULT_PAGE_SIZE
 
 
+def _integer_bounds(bounds: dict[str, float]) -> dict[str, float]:
+    """The same bounds for the integer member: a fractional lower bound becomes the next
+    integer (``ge=0.1`` admits the integers from 1), a fractional upper bound the one below."""
+    whole: dict[str, float] = {}
+    for key, value in bounds.items():
+        if float(value).is_integer():
+            whole[key] = int(value)
+        elif key in ("ge", "gt"):
+            whole["ge"] = math.ceil(value)
+        else:
+            whole["le"] = math.floor(value)
+    return whole
+
+
 def number(**bounds: float) -> object:
     """A strict JSON number (float or integer, never a boolean or a string), finite, within
     ``bounds`` (gt, ge, lt, le). The bounds are set on each member of the union so the
@@ -46,7 +61,7 @@ def number(**bounds: float) -> object:
     Schema)."""
     return Annotated[
         Annotated[StrictFloat, Field(allow_inf_nan=False, **bounds)]
-        | Annotated[StrictInt, Field(**bounds)],
+        | Annotated[StrictInt, Field(**_integer_bounds(bounds))],
         Field(),
     ]
 
@@ -175,7 +190,7 @@ class TurbineIn(StrictModel):
     min_rotor_speed_rpm: number(ge=0) | None = None  # type: ignore[valid-type]
     max_rotor_speed_rpm: PositiveNumber | None = None
     efficiency: number(gt=0, le=1) | None = None  # type: ignore[valid-type]
-    cut_in_m_s: PositiveNumber | None = None
+    cut_in_m_s: number(ge=MIN_CUT_IN_M_S, le=100) | None = None  # type: ignore[valid-type]
     cut_out_m_s: number(gt=0, le=100) | None = None  # type: ignore[valid-type]
     rho_kg_m3: number(gt=0, le=5) | None = None  # type: ignore[valid-type]
 

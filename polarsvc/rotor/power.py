@@ -44,6 +44,10 @@ MIN_RATED_POWER_W = 1.0
 """Smallest rated power accepted [W] (common practice, no source: no turbine is rated below a
 watt); below it the power scale, wind power over rated power, overflows."""
 
+MIN_CUT_IN_M_S = 0.1
+"""Smallest cut-in wind speed accepted [m/s] (common practice, no source: no rotor starts in a
+wind below 0.1 m/s); below it the tip speed ratio of the first operating point overflows."""
+
 MODE_MIN_SPEED = "minimum rotor speed"
 MODE_OPTIMUM = "optimum tip speed ratio"
 MODE_MAX_SPEED = "maximum rotor speed"
@@ -89,9 +93,12 @@ class TurbineData:
     rho_kg_m3: float = ISA_DENSITY_KG_M3
 
     def __post_init__(self) -> None:
-        for name in ("max_rotor_speed_rpm", "efficiency", "cut_in_m_s", "cut_out_m_s",
-                     "rho_kg_m3"):
+        for name in ("max_rotor_speed_rpm", "efficiency", "cut_out_m_s", "rho_kg_m3"):
             object.__setattr__(self, name, _number(name, getattr(self, name)))
+        object.__setattr__(
+            self, "cut_in_m_s",
+            _number("cut_in_m_s", self.cut_in_m_s, low=MIN_CUT_IN_M_S, inclusive=True),
+        )
         object.__setattr__(
             self, "rated_power_w",
             _number("rated_power_w", self.rated_power_w, low=MIN_RATED_POWER_W, inclusive=True),

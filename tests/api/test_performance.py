@@ -226,6 +226,23 @@ def test_a_rated_power_below_a_watt_is_refused_in_the_schema_and_by_the_rotor_la
     assert turbine["anyOf"][0]["minimum"] == 1
 
 
+def test_a_cut_in_wind_speed_near_zero_is_refused_naming_it(demo_client, tokens):
+    # cut_in_m_s=5e-324 put an operating point at a tip speed ratio of about 1e325 and the
+    # refusal named tip_speed_ratio, a parameter the request never gave. No rotor starts in
+    # a wind below 0.1 m/s (common practice, no source): the bound is published and the
+    # refusal names cut_in_m_s, in the query and in the turbine data of a blade.
+    response = demo_client.get(URL, params={"cut_in_m_s": 5e-324},
+                               headers=tokens.header("reader"))
+    assert response.status_code == 422
+    assert response.json()["detail"][0]["loc"] == ["query", "cut_in_m_s"]
+    document = demo_client.get("/api/v1/openapi.json").json()
+    parameters = document["paths"]["/api/v1/blades/{key}/performance"]["get"]["parameters"]
+    cut_in = next(p for p in parameters if p["name"] == "cut_in_m_s")["schema"]
+    assert cut_in["anyOf"][0]["minimum"] == 0.1
+    turbine = document["components"]["schemas"]["TurbineIn"]["properties"]["cut_in_m_s"]
+    assert turbine["anyOf"][0]["minimum"] == 0.1
+
+
 def test_a_blade_key_longer_than_a_hash_is_an_unknown_blade(demo_client, tokens):
     # 65 and more hexadecimal digits are neither a stored name nor a hash (64 digits, SHA-256):
     # the blade is not found (404), not a refused hash naming a content_hash field.

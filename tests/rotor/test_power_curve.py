@@ -161,3 +161,13 @@ def test_turbine_data_errors(change, parameter):
     with pytest.raises(ParameterError) as info:
         TurbineData(**{**base, **change})
     assert info.value.parameter == parameter
+
+
+@pytest.mark.parametrize("cut_in", [5e-324, 0.0999])
+def test_cut_in_below_a_tenth_of_a_metre_per_second_is_refused(cut_in: float) -> None:
+    # the published floor of 0.1 m/s (common practice, no source; polarsvc.rotor.power)
+    values = {**demo_turbine().as_dict(), "cut_in_m_s": cut_in}
+    with pytest.raises(ParameterError) as raised:
+        TurbineData.from_mapping(values)
+    assert raised.value.parameter == "cut_in_m_s"
+    assert TurbineData.from_mapping({**values, "cut_in_m_s": 0.1}).cut_in_m_s == 0.1

@@ -23,7 +23,7 @@ from polarsvc.api.schemas import (
     RotorPartQuery,
 )
 from polarsvc.api.served import cache_policy, served_response
-from polarsvc.rotor.power import MIN_RATED_POWER_W
+from polarsvc.rotor.power import MIN_CUT_IN_M_S, MIN_RATED_POWER_W
 
 router = APIRouter(tags=["rotor performance"], responses=ERROR_RESPONSES)
 
@@ -56,7 +56,7 @@ def rotor_query(
     min_rotor_speed_rpm: Annotated[float | None, Query(ge=0, le=1000)] = None,
     max_rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
     efficiency: Annotated[float | None, Query(gt=0, le=1)] = None,
-    cut_in_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
+    cut_in_m_s: Annotated[float | None, Query(ge=MIN_CUT_IN_M_S, le=100)] = None,
     cut_out_m_s: Annotated[float | None, Query(gt=0, le=100)] = None,
     rho_kg_m3: Annotated[float | None, Query(gt=0, le=5)] = None,
     weibull_k: Annotated[
