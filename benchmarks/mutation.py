@@ -12,7 +12,9 @@ then the script prints, per module and overall, the mutants killed (a test faile
 (counted as detected), survived (no test failed) and not checked (budget spent), with the
 score ``detected / (detected + survived)``. ``mutmut results`` and ``mutmut show <name>``
 inspect the survivors afterwards. ``--resume`` keeps the results of an earlier run
-(``mutants/``); by default the run starts afresh. ``--retest-survivors`` (implies
+(``mutants/``) and checks only the mutants without a result; by default the run starts
+afresh. The tests run with the hypothesis profile ``mutation`` (20 examples per property,
+``tests/conftest.py``) to keep the run within hours. ``--retest-survivors`` (implies
 ``--resume``) runs only the surviving mutants of the given modules again, against the current
 tests (after tests were added to kill them).
 """
@@ -32,7 +34,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 DEFAULT_MODULES = ("rotation", "characteristics", "extension")
 ALL_MODULES = ("rotation", "characteristics", "extension", "interpolation", "blade",
-               "resample", "polar", "errors")
+               "resample", "polar", "quality", "errors")
 DETECTED = ("killed", "timeout")
 
 
@@ -46,8 +48,10 @@ def mutmut() -> list[str]:
 def run_bounded(command: list[str], seconds: float) -> None:
     """Run ``command`` in its own process group; past ``seconds`` stop the whole group (mutmut
     and the mutant runs it forked), keeping what was recorded so far."""
+    environment = {**os.environ, "POLARSVC_HYPOTHESIS_PROFILE": "mutation"}
     process = subprocess.Popen(command, cwd=ROOT, stdout=subprocess.DEVNULL,
-                               stderr=subprocess.DEVNULL, start_new_session=True)
+                               stderr=subprocess.DEVNULL, start_new_session=True,
+                               env=environment)
     try:
         process.wait(timeout=seconds)
     except subprocess.TimeoutExpired:
@@ -112,10 +116,15 @@ def main() -> None:
         if left <= 0:
             break
         start = time.monotonic()
-        run_bounded(
-            [*mutmut(), "run", "--max-children", str(args.children), f"polarsvc.aero.{module}*"],
-            left,
-        )
+        if args.resume:
+            # mutmut reruns every mutant named on its command line, so a resumed run names
+            # only the mutants that have no result yet
+            targets = [name for owner, name, state in results()
+                       if owner == module and state == "not checked"]
+        else:
+            targets = [f"polarsvc.aero.{module}*"]
+        if targets:
+            run_bounded([*mutmut(), "run", "--max-children", str(args.children), *targets], left)
         spent[module] = time.monotonic() - start
     counts = states()
     total: Counter = Counter()
