@@ -24,6 +24,7 @@ from polarsvc.aero.characteristics import (
     _attached_hold,
     _dynamic_stall_arrays,
     _lift_line_arrays,
+    _stall_angle_arrays,
     _zero_lift_estimate,
 )
 
@@ -208,3 +209,75 @@ def test_separation_function_can_hold_the_attached_range() -> None:
                                   hold_attached=True)
     assert loose[alpha == 2.0][0] == pytest.approx((2.0 * math.sqrt(0.9) - 1.0) ** 2, abs=1e-12)
     assert held[alpha == 2.0][0] == 1.0
+
+
+def test_lift_line_from_two_close_points() -> None:
+    # Points 0.8 deg apart: n sum(x^2) - (sum x)^2 = 2 * 0.32 = 0.64 is small but positive, and
+    # the line through them is still cl = 0.1 alpha (by hand).
+    slope, alpha0 = _lift_line_arrays(np.array([-40.0, -0.4, 0.4, 40.0]),
+                                      np.array([[-1.0, -0.04, 0.04, 1.0]]))
+    assert slope[0] == pytest.approx(0.1, abs=1e-12)
+    assert alpha0[0] == pytest.approx(0.0, abs=1e-12)
+
+
+def test_lift_line_keeps_alpha0_within_the_search_range() -> None:
+    # cl = 0.1 (alpha + 22) crosses zero at -22 deg, outside -20..20 deg: alpha0 is held at
+    # -20 deg (documented); mirrored, +20 deg. Slope 0.1 /deg either way (by hand).
+    alpha = np.arange(-30.0, 31.0)
+    slope, alpha0 = _lift_line_arrays(alpha, np.vstack([0.1 * (alpha + 22.0),
+                                                        0.1 * (alpha - 22.0)]))
+    np.testing.assert_allclose(slope, [0.1, 0.1], atol=1e-12)
+    np.testing.assert_array_equal(alpha0, [-20.0, 20.0])
+
+
+def test_lift_line_of_tables_without_rising_lift() -> None:
+    # Falling lift (cl = -0.1 alpha) and constant lift (0.3) have no attached-flow line: (0, 0),
+    # computed without any floating-point warning (the constant row divides by a zero slope).
+    alpha = np.arange(-10.0, 11.0)
+    with np.errstate(all="raise"):
+        slope, alpha0 = _lift_line_arrays(alpha, np.vstack([-0.1 * alpha, 0.3 + 0.0 * alpha]))
+    np.testing.assert_array_equal(slope, [0.0, 0.0])
+    np.testing.assert_array_equal(alpha0, [0.0, 0.0])
+
+
+STALL_GRID_DEG = np.array([-40.0, -30.0, -20.0, -10.0, -1.0, 0.0, 1.0, 10.0, 20.0, 30.0, 40.0])
+
+
+def test_positive_stall_angle_by_hand() -> None:
+    # Rows of cl on STALL_GRID_DEG with their measured ranges; the stall angle is the angle of
+    # the largest cl over (0, 30] deg among the measured angles (by hand):
+    # 0: measured -40..40; the largest cl at 0 and 40 deg lie outside (0, 30]: 30 deg;
+    # 1: measured -40..20: 20 deg (30 deg, larger, is not measured);
+    # 2: measured 35..40: no measured angle in the window, the measured side gives 40 deg;
+    # 3: measured -40..-10: no measured positive angle: the measured end -10 deg;
+    # 4: measured -40..10, largest at 1 deg.
+    cl = np.array([
+        [0, 0, 0, 0, 0, 5, 0.5, 1, 2, 3, 4],
+        [0, 0, 0, 0, 0, 0, 0.5, 1, 2, 9, 0],
+        [0, 0, 0, 0, 0, 0, 0.5, 1, 2, 3, 1],
+        [0, 0, 0, 0, 0, 0, 0.5, 1, 2, 3, 4],
+        [0, 0, 0, 0, 0, 0, 3.0, 2, 0, 0, 0],
+    ], dtype=float)
+    low = np.array([-40.0, -40.0, 35.0, -40.0, -40.0])
+    high = np.array([40.0, 20.0, 40.0, -10.0, 10.0])
+    np.testing.assert_array_equal(_stall_angle_arrays(STALL_GRID_DEG, cl, low, high),
+                                  [30.0, 20.0, 40.0, -10.0, 1.0])
+
+
+def test_negative_stall_angle_by_hand() -> None:
+    # The smallest cl over [-30, 0) deg among the measured angles (by hand):
+    # 0: measured -40..40; smaller cl at -40 and 0 deg lie outside [-30, 0): -30 deg;
+    # 1: measured -20..40: -20 deg (-30 deg, smaller, is not measured);
+    # 2: measured 10..40: no measured negative angle: the measured end 10 deg;
+    # 3: measured -10..40, smallest at -1 deg.
+    cl = np.array([
+        [-4, -3, -2, -1, -0.5, -5, 0, 0, 0, 0, 0],
+        [0, -9, -2, -1, -0.5, 0, 0, 0, 0, 0, 0],
+        [-4, -3, -2, -1, -0.5, 0, 0, 0, 0, 0, 0],
+        [0, 0, 0, -2, -3.0, 0, 0, 0, 0, 0, 0],
+    ], dtype=float)
+    low = np.array([-40.0, -20.0, 10.0, -10.0])
+    high = np.array([40.0, 40.0, 40.0, 40.0])
+    np.testing.assert_array_equal(
+        _stall_angle_arrays(STALL_GRID_DEG, cl, low, high, positive=False),
+        [-30.0, -20.0, 10.0, -1.0])
