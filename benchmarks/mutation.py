@@ -22,7 +22,9 @@ tests (after tests were added to kill them).
 from __future__ import annotations
 
 import argparse
+import math
 import os
+import random
 import shutil
 import signal
 import subprocess
@@ -87,6 +89,19 @@ def states() -> dict[str, Counter]:
     return counts
 
 
+def interval(detected: int, checked: int, unchecked: int) -> str:
+    """For a module checked on a sample: the 95 % Wilson interval of its score (Wilson 1927,
+    J. Am. Stat. Assoc. 22; the sample is drawn uniformly, so the score of the sample estimates
+    that of the module)."""
+    if not unchecked or not checked:
+        return ""
+    z = 1.959964
+    p = detected / checked
+    centre = (p + z * z / (2 * checked)) / (1 + z * z / checked)
+    half = z * math.sqrt(p * (1 - p) / checked + z * z / (4 * checked**2)) / (1 + z * z / checked)
+    return f"  sample: 95 % interval {100 * (centre - half):.1f}-{100 * (centre + half):.1f}%"
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--modules", nargs="+", default=list(DEFAULT_MODULES),
@@ -95,6 +110,10 @@ def main() -> None:
                         help="wall-clock budget of all runs together [min]")
     parser.add_argument("--children", type=int, default=2, help="parallel mutant runs")
     parser.add_argument("--resume", action="store_true", help="keep earlier results")
+    parser.add_argument("--sample", type=int, default=0,
+                        help="with --resume: check at most this many unchecked mutants per "
+                             "module, drawn uniformly at random")
+    parser.add_argument("--seed", type=int, default=20261202, help="seed of --sample")
     parser.add_argument("--retest-survivors", action="store_true",
                         help="run only the survivors of the modules again (keeps results)")
     args = parser.parse_args()
@@ -121,6 +140,8 @@ def main() -> None:
             # only the mutants that have no result yet
             targets = [name for owner, name, state in results()
                        if owner == module and state == "not checked"]
+            if args.sample and len(targets) > args.sample:
+                targets = sorted(random.Random(args.seed).sample(targets, args.sample))
         else:
             targets = [f"polarsvc.aero.{module}*"]
         if targets:
@@ -138,7 +159,8 @@ def main() -> None:
         score = f"{100.0 * detected / checked:.1f}%" if checked else "-"
         unchecked = sum(v for k, v in c.items() if k not in (*DETECTED, "survived"))
         print(f"{module:<16}{c['killed']:>8}{c['timeout']:>9}{c['survived']:>10}"
-              f"{unchecked:>11}{score:>8}{spent.get(module, 0.0) / 60.0:>9.1f}")
+              f"{unchecked:>11}{score:>8}{spent.get(module, 0.0) / 60.0:>9.1f}"
+              f"{interval(detected, checked, unchecked)}")
     detected = sum(total[s] for s in DETECTED)
     checked = detected + total["survived"]
     if checked:
