@@ -10,10 +10,15 @@ Measured in one run, interleaved, so the ratios hold on a shared machine:
 2. a full power curve plus annual energy (:func:`polarsvc.performance.compute_performance`:
    Cp surface with refined maximum, Cp(lambda), rated wind speed, pitch to hold rated
    power, spanwise solution at every curve speed, Rayleigh energy for the IEC classes)
-   against the same computation with every BEM solve done by the plain per-station loop;
+   against the same computation with every BEM solve (``PreparedRotor.solve`` and
+   ``PreparedRotor.coefficients``) done by the plain per-station loop;
 3. cold requests of ``GET /blades/skerry-48/performance`` to a real uvicorn server on
    loopback: the blade set is cached, the rotor result is not (each request changes the air
    density by 1e-9 kg/m^3, so each is a new recipe), response received as JSON.
+
+Besides wall-clock times it prints the CPU time this process spent (``time.process_time``;
+the server runs in a thread of this process), which a machine shared with other jobs
+inflates far less than the wall clock.
 
 Demo data: seed_polars/ (synthetic). Options: ``--repeats N`` (default 9).
 """
@@ -159,6 +164,20 @@ def plain_solve(geometry, alpha_deg, cl, cd, tip_speed_ratio, pitch_deg=0.0, *,
     )
 
 
+def plain_prepared_solve(self, tip_speed_ratio, pitch_deg=0.0, *, wind_speed_m_s=None,
+                         rho_kg_m3=bem.ISA_DENSITY_KG_M3) -> bem.BemResult:
+    """:meth:`polarsvc.rotor.bem.PreparedRotor.solve` done by :func:`plain_solve`."""
+    alpha, cl, cd = self.inputs
+    return plain_solve(self.geometry, alpha, cl, cd, tip_speed_ratio, pitch_deg,
+                       wind_speed_m_s=wind_speed_m_s, rho_kg_m3=rho_kg_m3, **self.options)
+
+
+def plain_coefficients(self, tip_speed_ratio, pitch_deg=0.0):
+    """:meth:`polarsvc.rotor.bem.PreparedRotor.coefficients` done by :func:`plain_solve`."""
+    result = plain_prepared_solve(self, tip_speed_ratio, pitch_deg)
+    return result.cp, result.ct, 0.0
+
+
 def demo_inputs() -> tuple[dict, np.ndarray, np.ndarray, np.ndarray]:
     import json
 
@@ -173,7 +192,7 @@ def free_port() -> int:
         return sock.getsockname()[1]
 
 
-def cold_requests(repeats: int) -> tuple[list[float], float]:
+def cold_requests(repeats: int) -> tuple[list[float], float, list[float]]:
     """Cold rotor requests on a cached blade set, over HTTP to a real server."""
     folder = tempfile.mkdtemp(prefix="bench-rotor-")
     url = f"sqlite:///{folder}/bench.db"
@@ -187,7 +206,8 @@ def cold_requests(repeats: int) -> tuple[list[float], float]:
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     base = f"http://127.0.0.1:{port}/api/v1"
-    samples = []
+    samples: list[float] = []
+    cpu_samples: list[float] = []
     try:
         with httpx.Client(timeout=120) as client:
             while True:
@@ -201,15 +221,17 @@ def cold_requests(repeats: int) -> tuple[list[float], float]:
             first_s = time.perf_counter() - start
             assert first.status_code == 200, first.text
             for i in range(repeats):
+                cpu = time.process_time()
                 start = time.perf_counter()
                 answer = client.get(base + "/blades/skerry-48/performance",
                                     params={"rho_kg_m3": 1.225 + (i + 1) * 1e-9})
                 samples.append(time.perf_counter() - start)
+                cpu_samples.append(time.process_time() - cpu)
                 assert answer.headers["x-polarsvc-cache"] == "miss"
     finally:
         server.should_exit = True
         thread.join(timeout=10)
-    return samples, first_s
+    return samples, first_s, cpu_samples
 
 
 def main() -> int:
@@ -223,6 +245,7 @@ def main() -> int:
     fine = -2.5
 
     fast_cp, plain_cp, fast_curve, plain_curve = [], [], [], []
+    fast_curve_cpu: list[float] = []
     for _ in range(args.repeats):
         start = time.perf_counter()
         vectorised = rotor.solve(geometry, alpha, cl, cd, tsr, fine)
@@ -232,18 +255,19 @@ def main() -> int:
         plain_cp.append(time.perf_counter() - start)
     np.testing.assert_allclose(vectorised.cp, looped.cp, atol=1e-10)
     for _ in range(max(3, args.repeats // 3)):
+        cpu = time.process_time()
         start = time.perf_counter()
         arrays, _ = performance.compute_performance(alpha, cl, cd, blade, params)
         fast_curve.append(time.perf_counter() - start)
+        fast_curve_cpu.append(time.process_time() - cpu)
         start = time.perf_counter()
-        with mock.patch.object(rotor.surface, "solve", plain_solve), \
-                mock.patch.object(rotor.power, "solve", plain_solve), \
-                mock.patch.object(rotor, "solve", plain_solve):
+        with mock.patch.object(bem.PreparedRotor, "solve", plain_prepared_solve), \
+                mock.patch.object(bem.PreparedRotor, "coefficients", plain_coefficients):
             reference, _ = performance.compute_performance(alpha, cl, cd, blade, params)
         plain_curve.append(time.perf_counter() - start)
     np.testing.assert_allclose(arrays["annual_energy_wh"], reference["annual_energy_wh"],
                                rtol=1e-6)
-    cold, first = cold_requests(args.repeats)
+    cold, first, cold_cpu = cold_requests(args.repeats)
     load = os.getloadavg()
     print(f"load average (1, 5, 15 min): {load[0]:.2f} {load[1]:.2f} {load[2]:.2f}; "
           f"{os.cpu_count()} cores; repeats {args.repeats}")
@@ -253,6 +277,8 @@ def main() -> int:
         ("power curve + annual energy: performance.compute_performance", fast_curve),
         ("power curve + annual energy, BEM by the brentq loop", plain_curve),
         ("cold GET /blades/skerry-48/performance (blade set cached), HTTP", cold),
+        ("  CPU time of this process: compute_performance", fast_curve_cpu),
+        ("  CPU time of this process (server and client): cold GET", cold_cpu),
     ]
     for label, samples in rows:
         print(f"{label:70s} median {median_ms(samples):9.2f} ms  (min {1e3 * min(samples):.2f})")

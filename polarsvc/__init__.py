@@ -11,4 +11,4 @@ Layers (data flows one way):
     polarsvc.cli    command line
 """
 
-__version__ = "0.2.0"
+__version__ = "0.2.1"

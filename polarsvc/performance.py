@@ -25,7 +25,7 @@ from polarsvc.aero.errors import ParameterError, UnknownMethodError
 ROTOR_CAUTION = rotor.CAUTION
 
 GRID_DEFAULTS = {
-    "tip_speed_ratios": {"start": 1.0, "stop": 15.0, "step": 0.25},
+    "tip_speed_ratios": {"start": 1.0, "stop": 15.0, "step": 0.5},
     "pitches_deg": {"start": -5.0, "stop": 30.0, "step": 5.0},
 }
 """Cp surface grid; its maximum, refined between the grid points, gives the best tip speed
@@ -79,10 +79,91 @@ RESULT_ARRAYS = {
     "normal_force_n_per_m": "normal force per unit length per wind speed and station [N/m]",
     "tangential_force_n_per_m": "tangential force per unit length per wind speed and "
                                 "station [N/m]",
+    "reynolds_prepared": "chord Reynolds number each station's table was prepared for [-] "
+                         "(NaN where not known)",
+    "reynolds_min": "lowest chord Reynolds number W c / nu met per station over the power "
+                    "curve [-]",
+    "reynolds_max": "highest chord Reynolds number W c / nu met per station over the power "
+                    "curve [-]",
     "annual_energy_wh": "annual energy per wind distribution (8766 h) [Wh]",
     "mean_power_w": "mean electrical power per wind distribution [W]",
     "capacity_factor": "capacity factor per wind distribution [-]",
 }
+
+
+KINEMATIC_VISCOSITY_M2_S = 1.46e-5
+"""Kinematic viscosity of air at ISA sea level [m^2/s] for the station Reynolds numbers met
+over the power curve: 1.4607e-5 m^2/s in the sea-level row of the U.S. Standard Atmosphere
+1976 tables (NOAA, NASA, USAF; the ISA of ISO 2533:1975 agrees there), rounded (from
+memory). The blade-set tables use rho / mu = 1.225 / 1.789e-5 = 1.4604e-5 m^2/s."""
+
+REYNOLDS_FACTOR_LIMIT = 2.0
+"""A station is listed in the warnings when the Reynolds numbers met over the power curve
+reach beyond twice, or below half, the Reynolds number its table was prepared for (common
+practice, no source: section data are usually taken as valid within about a factor of two
+in Re away from transition-sensitive conditions)."""
+
+
+def reynolds_met(
+    wind_speed_m_s: np.ndarray,
+    tip_speed_ratio: np.ndarray,
+    radius_m: np.ndarray,
+    rotor_radius_m: float,
+    chord_m: np.ndarray,
+    axial_induction: np.ndarray,
+    tangential_induction: np.ndarray,
+    kinematic_viscosity_m2_s: float = KINEMATIC_VISCOSITY_M2_S,
+) -> np.ndarray:
+    """Chord Reynolds number ``W c / nu`` per wind speed and station, with the relative
+    speed of the BEM solution ``W = U sqrt((1 - a)^2 + (lambda r / R (1 + a'))^2)`` (Burton
+    et al. 2011, Wind Energy Handbook, sec. 3.5). Shapes: speeds ``(m,)``, stations
+    ``(n,)``, inductions ``(m, n)``."""
+    speed = np.asarray(wind_speed_m_s, dtype=np.float64)[:, None]
+    local = np.asarray(tip_speed_ratio, dtype=np.float64)[:, None] * (
+        np.asarray(radius_m, dtype=np.float64) / float(rotor_radius_m)
+    )
+    relative = speed * np.sqrt((1.0 - axial_induction) ** 2
+                               + (local * (1.0 + tangential_induction)) ** 2)
+    return relative * np.asarray(chord_m, dtype=np.float64) / kinematic_viscosity_m2_s
+
+
+def reynolds_report(
+    radius_m: np.ndarray, prepared: np.ndarray, low: np.ndarray, high: np.ndarray
+) -> dict[str, Any]:
+    """What the result says about the station Reynolds numbers: viscosity and its source,
+    the factor, and every station whose range met leaves [prepared / 2, 2 x prepared]."""
+    outside = []
+    for station, (r, re0, re_low, re_high) in enumerate(
+        zip(radius_m, prepared, low, high, strict=True)
+    ):
+        if not math.isfinite(float(re0)):
+            continue
+        if re_high > REYNOLDS_FACTOR_LIMIT * re0 or re_low < re0 / REYNOLDS_FACTOR_LIMIT:
+            outside.append({
+                "station": station, "radius_m": float(r), "prepared": float(re0),
+                "min": float(re_low), "max": float(re_high),
+            })
+    return {
+        "definition": "W c / nu per station at every wind speed of the power curve, "
+                      "W = U sqrt((1 - a)^2 + (lambda r / R (1 + a'))^2) of the BEM solution",
+        "kinematic_viscosity_m2_s": KINEMATIC_VISCOSITY_M2_S,
+        "viscosity_source": "ISA sea level, U.S. Standard Atmosphere 1976 table "
+                            "(1.4607e-5 m^2/s, rounded)",
+        "factor_limit": REYNOLDS_FACTOR_LIMIT,
+        "factor_limit_source": "common practice, no source",
+        "stations_outside": outside,
+    }
+
+
+def reynolds_warnings(report: Mapping[str, Any]) -> list[str]:
+    """One sentence per station of ``report["stations_outside"]``."""
+    return [
+        f"station {s['station']} (r = {s['radius_m']:g} m): Reynolds numbers "
+        f"{s['min']:.3g}..{s['max']:.3g} over the power curve against {s['prepared']:.3g} "
+        f"its table was prepared for (beyond a factor of {report['factor_limit']:g}); the "
+        "table is used as prepared"
+        for s in report["stations_outside"]
+    ]
 
 
 def _grid_block(name: str, block: Mapping[str, Any] | None) -> dict[str, float]:
@@ -198,9 +279,14 @@ def compute_performance(
     cd: np.ndarray,
     blade: Mapping[str, Any],
     params: Mapping[str, Any],
+    prepared_reynolds: Sequence[float] | np.ndarray | None = None,
 ) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
     """Cp surface, Cp(lambda), power curve, spanwise solution at every curve speed and
-    annual energy of a blade with its station tables (``cl``, ``cd``: stations x angles).
+    annual energy of a blade with its station tables (``cl``, ``cd``: stations x angles),
+    and the station Reynolds numbers met over the power curve against
+    ``prepared_reynolds``, the ones the tables were prepared for (the tables are used as
+    they are at every wind speed; stations beyond :data:`REYNOLDS_FACTOR_LIMIT` are listed
+    in the warnings and assumptions).
 
     Returns the named arrays (:data:`RESULT_ARRAYS`, in that order) and the reports.
     """
@@ -208,10 +294,10 @@ def compute_performance(
     options = _solve_options(params)
     turbine = rotor.TurbineData.from_mapping(params["turbine"])
     tsr = grid_values(params["tip_speed_ratios"])
+    prepared = rotor.prepare(g, alpha_deg, cl, cd, **options)
     surface = rotor.cp_surface(g, alpha_deg, cl, cd, tsr, grid_values(params["pitches_deg"]),
-                               **options)
+                               rotor=prepared)
     best_tsr, fine_pitch = surface.best_tip_speed_ratio, surface.best_pitch_deg
-    along = rotor.solve(g, alpha_deg, cl, cd, tsr, fine_pitch, **options)
     step = params["wind_step_m_s"]
     count = round((turbine.cut_out_m_s - turbine.cut_in_m_s) / step)
     speeds = np.append(
@@ -220,14 +306,12 @@ def compute_performance(
     )
     speeds = np.unique(np.append(speeds, turbine.cut_out_m_s))
     speeds = speeds[(speeds >= turbine.cut_in_m_s) & (speeds <= turbine.cut_out_m_s)]
-    rated = rotor.rated_wind_speed(g, alpha_deg, cl, cd, turbine, best_tsr, fine_pitch,
-                                   options)
-    if rated is not None:
-        speeds = np.unique(np.append(speeds, rated))
     states = rotor.operating_states(
         g, alpha_deg, cl, cd, turbine, speeds, best_tip_speed_ratio=best_tsr,
-        fine_pitch_deg=fine_pitch, rated_wind_speed_m_s=rated, **options,
+        fine_pitch_deg=fine_pitch, fine_pitch_tip_speed_ratio=tsr, rotor=prepared,
     )
+    rated = states.rated_wind_speed_m_s
+    speeds = states.wind_speed_m_s
     bem = states.bem
     winds = distributions(params)
     energies = [
@@ -235,14 +319,21 @@ def compute_performance(
                             rated_power_w=turbine.rated_power_w)
         for d in winds
     ]
+    met = reynolds_met(speeds, states.tip_speed_ratio, g.radius_m, g.rotor_radius_m,
+                       g.chord_m, bem.axial_induction, bem.tangential_induction)
+    prepared_re = (np.full(g.size, np.nan) if prepared_reynolds is None
+                   else np.asarray(prepared_reynolds, dtype=np.float64))
+    if prepared_re.shape != (g.size,):
+        raise ParameterError("prepared_reynolds", f"needs one value per station ({g.size})")
+    reynolds = reynolds_report(g.radius_m, prepared_re, met.min(axis=0), met.max(axis=0))
     arrays: dict[str, np.ndarray] = {
         "tip_speed_ratio": surface.tip_speed_ratio,
         "pitch_deg": surface.pitch_deg,
         "cp": surface.cp,
         "ct": surface.ct,
         "optimum": np.array([best_tsr, fine_pitch, surface.cp_max]),
-        "cp_lambda": along.cp,
-        "ct_lambda": along.ct,
+        "cp_lambda": states.fine_pitch_cp,
+        "ct_lambda": states.fine_pitch_ct,
         "wind_speed_m_s": speeds,
         "rotor_speed_rpm": states.rotor_speed_rpm,
         "curve_tip_speed_ratio": states.tip_speed_ratio,
@@ -259,6 +350,9 @@ def compute_performance(
         "rated_wind_speed_m_s": np.array([np.nan if rated is None else rated]),
         "radius_m": g.radius_m,
         **{name: getattr(bem, name) for name in STATION_ARRAYS},
+        "reynolds_prepared": prepared_re,
+        "reynolds_min": met.min(axis=0),
+        "reynolds_max": met.max(axis=0),
         "annual_energy_wh": np.array([e.energy_wh for e in energies]),
         "mean_power_w": np.array([e.mean_power_w for e in energies]),
         "capacity_factor": np.array([e.capacity_factor for e in energies], dtype=float),
@@ -267,8 +361,10 @@ def compute_performance(
     reports = {
         "distributions": [d.label for d in winds],
         "control_modes": list(CONTROL_MODES),
-        "assumptions": list(bem.assumptions),
-        "max_abs_residual": max(bem.max_abs_residual, along.max_abs_residual),
+        "assumptions": [*bem.assumptions, *reynolds_warnings(reynolds)],
+        "warnings": reynolds_warnings(reynolds),
+        "reynolds": reynolds,
+        "max_abs_residual": states.max_abs_residual,
         "angle_outside_table": bool(bem.outside_table.any()),
         "integration": "trapezoid rule over the stations, first to last station",
         "moments": "about the hub radius, one blade, rotor-plane axes, aerodynamic only",
@@ -284,12 +380,17 @@ CURVE_COLUMNS = (
     "torque_n_m", "root_flap_moment_n_m", "root_edge_moment_n_m",
 )
 
-TABLE_PARTS = ("curve", "cp", "cp_lambda", "stations", "energy")
-"""Parts of a rotor result as flat tables (the CSV form): the power curve (one row per
-wind speed), the Cp surface (long: one row per tip speed ratio and pitch), Cp along the
-tip speed ratio at the fine pitch, the spanwise solution (long: one row per wind speed and
-station) and the annual energy (one row per wind distribution, in the order of the
-``distributions`` report)."""
+TABLE_PARTS = ("curve", "cp", "cp_lambda", "stations", "energy", "optimum", "reynolds")
+"""Parts of a rotor result as flat tables (the CSV form, and the binary and JSON forms when
+a part is asked for): the power curve (one row per wind speed), the Cp surface (long: one
+row per tip speed ratio and pitch), Cp along the tip speed ratio at the fine pitch, the
+spanwise solution (long: one row per wind speed and station), the annual energy (one row
+per wind distribution, in the order of the ``distributions`` report), the optimum (one
+row: best tip speed ratio, fine pitch, maximum Cp, rated wind speed) and the station
+Reynolds numbers (one row per station: prepared, lowest and highest met)."""
+
+DEFAULT_CSV_PART = "curve"
+"""The part a CSV answer carries when none is named."""
 
 
 def table_part(arrays: Mapping[str, np.ndarray], part: str) -> dict[str, np.ndarray]:
@@ -314,7 +415,77 @@ def table_part(arrays: Mapping[str, np.ndarray], part: str) -> dict[str, np.ndar
                 "annual_energy_wh": arrays["annual_energy_wh"],
                 "mean_power_w": arrays["mean_power_w"],
                 "capacity_factor": arrays["capacity_factor"]}
+    if part == "optimum":
+        optimum = arrays["optimum"]
+        return {"best_tip_speed_ratio": optimum[0:1], "fine_pitch_deg": optimum[1:2],
+                "cp_max": optimum[2:3],
+                "rated_wind_speed_m_s": arrays["rated_wind_speed_m_s"]}
+    if part == "reynolds":
+        return {"radius_m": arrays["radius_m"],
+                "reynolds_prepared": arrays["reynolds_prepared"],
+                "reynolds_min": arrays["reynolds_min"],
+                "reynolds_max": arrays["reynolds_max"]}
     raise UnknownMethodError("part", part, TABLE_PARTS)
+
+
+COMPARISON_PARTS = ("curve", "cp_lambda", "energy", "rated")
+"""Parts of a comparison as flat tables: the power curves (one row per wind speed), Cp
+along the tip speed ratio, the annual energy (one row per wind distribution present in
+both, in the order of the ``distributions`` metadata) and each result at its own rated
+wind speed (one row; NaN where rated power is never reached)."""
+
+COMPARISON_ARRAY_BLOCKS = ("cp_lambda", "power_curve", "annual_energy", "at_rated_wind_speed",
+                           "rated")
+RATED_QUANTITIES = ("wind_speed_m_s", "thrust_n", "root_flap_moment_n_m",
+                    "root_edge_moment_n_m")
+
+
+def _column(values: Any) -> np.ndarray:
+    return np.array([np.nan if v is None else v for v in values], dtype=np.float64)
+
+
+def comparison_part(comparison: Mapping[str, Any], part: str) -> dict[str, np.ndarray]:
+    """One part of a comparison (:func:`compare_results`) as one-dimensional columns of one
+    length (None written as NaN)."""
+    if part == "curve":
+        block = comparison["power_curve"]
+        return {name: _column(block[name])
+                for name in ("wind_speed_m_s", "a_w", "b_w", "delta_w", "delta_percent")}
+    if part == "cp_lambda":
+        block = comparison["cp_lambda"]
+        return {name: _column(block[name]) for name in ("tip_speed_ratio", "a", "b", "delta")}
+    if part == "energy":
+        rows = comparison["annual_energy"]
+        names = ("a_mwh", "b_mwh", "delta_mwh", "delta_percent", "a_capacity_factor",
+                 "b_capacity_factor")
+        return {"distribution": np.arange(len(rows), dtype=np.float64),
+                **{name: _column([row[name] for row in rows]) for name in names}}
+    if part == "rated":
+        columns = {}
+        for side in ("a", "b"):
+            values = comparison["rated"][side]
+            for name in RATED_QUANTITIES:
+                columns[f"{side}_{name}"] = _column([None if values is None else values[name]])
+        return columns
+    raise UnknownMethodError("part", part, COMPARISON_PARTS)
+
+
+def comparison_meta(comparison: Mapping[str, Any], part: str | None) -> dict[str, Any]:
+    """What a comparison says beside its arrays (identities, recipe differences, optimum,
+    cautions), the part and the wind distributions named by the energy rows."""
+    meta = {key: value for key, value in comparison.items()
+            if key not in COMPARISON_ARRAY_BLOCKS}
+    meta["distributions"] = [row["distribution"] for row in comparison["annual_energy"]]
+    if part is not None:
+        meta["part"] = part
+    return meta
+
+
+def comparison_arrays(comparison: Mapping[str, Any]) -> dict[str, np.ndarray]:
+    """Every part of a comparison, columns named ``<part>.<column>``."""
+    return {f"{part}.{name}": values
+            for part in COMPARISON_PARTS
+            for name, values in comparison_part(comparison, part).items()}
 
 
 def station_solution_at(

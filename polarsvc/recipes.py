@@ -703,6 +703,7 @@ def execute_recipe(
         arrays, reports = performance.compute_performance(
             tables.alpha_deg, tables.columns["cl"], tables.columns["cd"], blade,
             params["rotor"],
+            prepared_reynolds=blade_stations(blade, tables_recipe["params"]).reynolds,
         )
         return DerivedResult(alpha_deg=None, columns=arrays, reports=reports)
     family = prepared_family(recipe, load_revision, family_cache, airfoils)

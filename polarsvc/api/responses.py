@@ -208,39 +208,50 @@ def columns_csv_rows(columns: Mapping[str, np.ndarray]) -> bytes:
 
 
 def arrays_response(
-    request: Request,
+    request: Request | None,
     *,
     fmt: str,
-    content_hash: str,
+    content_hash: str | None,
     arrays: Mapping[str, np.ndarray],
     meta: Mapping[str, Any],
-    csv_columns: Mapping[str, np.ndarray],
-    csv_part: str,
+    part: str | None = None,
     extra_headers: Mapping[str, str] | None = None,
 ) -> Response:
-    """A result of named arrays of any shapes (a rotor result) in the chosen format, with
-    the ETag and 304 handling of :func:`table_response`. JSON, Arrow and .npz carry every
-    array (the named-array layout of :mod:`polarsvc.formats.binary`); CSV carries
-    ``csv_columns`` (one-dimensional, of one length), the part ``csv_part`` of the result."""
+    """Named arrays of any shapes (a rotor result, a comparison) in the chosen format: JSON
+    (metadata and arrays in one object), Arrow or .npz (the named-array layout of
+    :mod:`polarsvc.formats.binary`). ``part`` names what ``arrays`` are when they are one
+    part of a result, one-dimensional columns of one length; CSV needs such a part. With a
+    ``content_hash`` the answer has an ETag (content hash, representation, digest of the
+    metadata), 304 handling and its encoded arrays kept in :data:`ENCODED`; without one
+    (a comparison, computed per request) neither."""
     meta_bytes = dumps(meta)
-    tag = f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}"
-    representation = fmt if fmt != "csv" else f"csv-{csv_part}"
-    etag = etag_for(tag, representation)
-    headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **(extra_headers or {})}
-    if etag_matches(request, etag):
-        return Response(status_code=304, headers=headers)
-    key = (content_hash, representation, "arrays")
+    representation = fmt if part is None else f"{fmt}-{part}"
+    headers = dict(extra_headers or {})
+    key = None
+    if content_hash is not None:
+        tag = f"{content_hash}.{hashlib.sha256(meta_bytes).hexdigest()[:16]}"
+        etag = etag_for(tag, representation)
+        headers = {"ETag": etag, "X-Polarsvc-Content-Hash": content_hash, **headers}
+        if request is not None and etag_matches(request, etag):
+            return Response(status_code=304, headers=headers)
+        key = (content_hash, representation, "arrays")
+
+    def cached(build: Any) -> Any:
+        return build() if key is None else ENCODED.get(key, build)
+
     if fmt == "arrow":
-        table = ENCODED.get(key, lambda: arrays_arrow_table(arrays))
+        table = cached(lambda: arrays_arrow_table(arrays))
         return Response(write_arrow(table, meta), media_type=ARROW_MEDIA_TYPE, headers=headers)
     if fmt == "npz":
         return Response(encode_arrays_npz(arrays, meta), media_type=NPZ_MEDIA_TYPE,
                         headers=headers)
     if fmt == "csv":
-        rows = ENCODED.get(key, lambda: columns_csv_rows(csv_columns))
+        if part is None:
+            raise ValueError("a CSV answer carries one part of a result")
+        rows = cached(lambda: columns_csv_rows(arrays))
         return Response(csv_comments(meta) + rows, media_type=CSV_MEDIA_TYPE, headers=headers)
-    arrays_json = ENCODED.get(
-        key, lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()})
+    arrays_json = cached(
+        lambda: dumps({name: np.ascontiguousarray(v) for name, v in arrays.items()})
     )
     body = meta_bytes[:-1] + b"," + arrays_json[1:] if len(meta_bytes) > 2 else arrays_json
     return Response(body, media_type=JSON_MEDIA_TYPE, headers=headers)

@@ -21,6 +21,7 @@ from pydantic import (
     model_validator,
 )
 
+from polarsvc import performance
 from polarsvc.formats.binary import ARROW_MEDIA_TYPE, NPZ_MEDIA_TYPE
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
 from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
@@ -319,3 +320,25 @@ IDENTICAL_EXISTS: dict[int | str, dict[str, object]] = {
     201: {"description": "stored"},
 }
 """Answers of a create endpoint that is idempotent for identical content."""
+
+
+RotorPart = Literal[performance.TABLE_PARTS]  # type: ignore[valid-type]
+RotorPartQuery = Annotated[
+    RotorPart | None,
+    Query(description=(
+        "a rotor result's part as columns, in every format: curve (power curve), cp (Cp "
+        "surface, long), cp_lambda, stations (spanwise, long), energy, optimum, reynolds "
+        "(station Reynolds numbers). Without it JSON and the binary forms carry every "
+        "array and CSV the power curve. Tables have one part: ignored for them."
+    )),
+]
+ComparisonPart = Literal[performance.COMPARISON_PARTS]  # type: ignore[valid-type]
+ComparisonPartQuery = Annotated[
+    ComparisonPart | None,
+    Query(description=(
+        "a part of the comparison as columns: curve (power curves), cp_lambda, energy, "
+        "rated. Without it JSON is the whole comparison, the binary forms carry every part "
+        "(arrays named <part>.<column>) and CSV the power curves."
+    )),
+]
+

@@ -35,10 +35,13 @@ PACKAGE_FORMAT = "zip"
 
 
 def served_response(
-    request: Request, served: ServedTable, fmt: str, part: str = "curve"
+    request: Request, served: ServedTable, fmt: str, part: str | None = None
 ) -> Response:
     """The table with its recipe, hashes and reports; ETag is the content hash. A rotor
-    result in CSV is the table ``part`` of :data:`polarsvc.performance.TABLE_PARTS`."""
+    result with ``part`` (one of :data:`polarsvc.performance.TABLE_PARTS`) is that part as
+    columns, in every format; without it JSON and the binary forms carry every array and
+    CSV the part :data:`polarsvc.performance.DEFAULT_CSV_PART`. Tables have one part:
+    ``part`` is ignored for them."""
     radii = None
     stations = served.reports.get("stations") if served.reports else None
     if served.alpha_deg is not None and served.columns["cl"].ndim == 2 and stations:
@@ -51,11 +54,17 @@ def served_response(
     if served.deprecated_inputs:
         headers["X-Polarsvc-Deprecated-Inputs"] = str(len(served.deprecated_inputs))
     if served.alpha_deg is None:
+        if part is None and fmt == "csv":
+            part = performance.DEFAULT_CSV_PART
+        if part is None:
+            return arrays_response(
+                request, fmt=fmt, content_hash=served.content_hash, arrays=served.columns,
+                meta=served.meta(), extra_headers=headers,
+            )
         return arrays_response(
-            request, fmt=fmt, content_hash=served.content_hash, arrays=served.columns,
-            meta={**served.meta(), "part": part} if fmt == "csv" else served.meta(),
-            csv_columns=performance.table_part(served.columns, part) if fmt == "csv" else {},
-            csv_part=part, extra_headers=headers,
+            request, fmt=fmt, content_hash=served.content_hash,
+            arrays=performance.table_part(served.columns, part),
+            meta={**served.meta(), "part": part}, part=part, extra_headers=headers,
         )
     return table_response(
         request,

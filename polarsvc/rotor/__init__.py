@@ -10,7 +10,9 @@ from polarsvc.rotor.bem import (
     ISA_DENSITY_KG_M3,
     REGIONS,
     BemResult,
+    PreparedRotor,
     assumptions,
+    prepare,
     solve,
 )
 from polarsvc.rotor.energy import (
@@ -38,7 +40,6 @@ from polarsvc.rotor.power import (
     TurbineData,
     operating_states,
     power_curve,
-    rated_wind_speed,
 )
 from polarsvc.rotor.roots import Roots, bracketed_roots
 from polarsvc.rotor.surface import CpSurface, best_operating_point, cp_surface
@@ -56,6 +57,7 @@ __all__ = [
     "CpSurface",
     "OperatingStates",
     "PowerCurve",
+    "PreparedRotor",
     "Roots",
     "RotorGeometry",
     "TurbineData",
@@ -73,7 +75,7 @@ __all__ = [
     "operating_states",
     "power_curve",
     "prandtl_factor",
-    "rated_wind_speed",
+    "prepare",
     "rayleigh",
     "solve",
 ]

@@ -57,7 +57,12 @@ from numpy.typing import ArrayLike, NDArray
 from polarsvc.aero.errors import ParameterError, show_value
 from polarsvc.rotor.errors import ConvergenceError
 from polarsvc.rotor.geometry import RotorGeometry
-from polarsvc.rotor.momentum import BUHL_SWITCH_K, momentum_axial_induction, prandtl_factor
+from polarsvc.rotor.momentum import (
+    BUHL_SWITCH_K,
+    buhl_axial_induction,
+    momentum_axial_induction,
+    prandtl_factor,
+)
 from polarsvc.rotor.roots import bracketed_roots
 
 FloatArray = NDArray[np.float64]
@@ -97,17 +102,20 @@ def _narrow_windmill_brackets(
     upper: FloatArray,
     f_lower: FloatArray,
     f_upper: FloatArray,
+    known: tuple[FloatArray, FloatArray] | None = None,
 ) -> None:
     """Split the bracket (0, pi/2] at the inflow angle without induction, atan(1/lambda_r),
     and at half of it, and keep the first part with a sign change (in place). The root of
     a loaded windmill lies mostly between the two, so the root finder starts from a bracket
     a fraction of the width (fewer iterations); any part with a sign change holds a root
-    of Ning's residual in (0, pi/2]."""
+    of Ning's residual in (0, pi/2]. ``known``: the residual at the two points already
+    evaluated for ``chosen``."""
     if chosen.size == 0:
         return
     free = np.arctan(1.0 / lambda_r[chosen])
     points = [np.maximum(0.5 * free, lower[chosen]), np.maximum(free, lower[chosen])]
-    values = [f(points[0], chosen), f(points[1], chosen)]
+    values = list(known) if known is not None else [f(points[0], chosen),
+                                                   f(points[1], chosen)]
     ends = [lower[chosen], points[0], points[1], upper[chosen]]
     f_ends = [f_lower[chosen], values[0], values[1], f_upper[chosen]]
     done = np.zeros(chosen.size, dtype=bool)
@@ -258,6 +266,7 @@ class _Tables:
     size: int
     periodic: bool
     step: float | None
+    source: tuple[Any, Any, Any] = ((), (), ())
 
     def lookup(
         self, alpha_deg: FloatArray, row: NDArray[np.intp]
@@ -271,12 +280,12 @@ class _Tables:
             outside = np.zeros(x.shape, dtype=bool)
         else:
             outside = (alpha_deg < first) | (alpha_deg > last)
-            x = np.clip(alpha_deg, first, last)
+            x = np.minimum(np.maximum(alpha_deg, first), last)
         if self.step is not None:
             i = np.floor((x - first) / self.step).astype(np.intp)
         else:
             i = np.searchsorted(grid, x, side="right") - 1
-        np.clip(i, 0, self.size - 2, out=i)
+        np.minimum(np.maximum(i, 0, out=i), self.size - 2, out=i)
         t = (x - grid[i]) / (grid[i + 1] - grid[i])
         flat = row + i
         cl0 = self.cl[flat]
@@ -313,7 +322,8 @@ def _tables(alpha_deg: ArrayLike, cl: ArrayLike, cd: ArrayLike, stations: int) -
     uniform = bool(spacing.max() - spacing.min() <= 1e-12 * max(1.0, abs(spacing[0])))
     periodic = bool(grid[-1] - grid[0] >= 360.0 - 1e-9)
     return _Tables(
-        grid, arrays[0], arrays[1], grid.size, periodic, float(spacing[0]) if uniform else None
+        grid, arrays[0], arrays[1], grid.size, periodic, float(spacing[0]) if uniform else None,
+        (alpha_deg, cl, cd),
     )
 
 
@@ -333,35 +343,45 @@ class _Elements:
 
 
 def _state(
-    phi: FloatArray, e: _Elements, index: NDArray[np.intp] | slice, tables: _Tables
+    phi: FloatArray, e: _Elements, index: NDArray[np.intp] | None, tables: _Tables,
+    *, full: bool = True,
 ) -> dict[str, FloatArray]:
-    """Everything at inflow angle ``phi`` for the elements ``index``."""
+    """Everything at inflow angle ``phi`` for the elements ``index`` (None: all); with
+    ``full=False`` only the residual (what the root finder needs)."""
+    def take(values: Any) -> Any:
+        return values if index is None else values[index]
+
     s = np.sin(phi)
     c = np.cos(phi)
-    lam = e.lambda_r[index]
-    alpha_deg = np.degrees(phi - e.theta_rad[index])
-    cl, cd, outside = tables.lookup(alpha_deg, e.offset[index])
+    lam = take(e.lambda_r)
+    alpha_deg = np.degrees(phi - take(e.theta_rad))
+    cl, cd, outside = tables.lookup(alpha_deg, take(e.offset))
     cn = cl * c + cd * s
     ct = cl * s - cd * c
     abs_s = np.abs(s)
-    F = np.ones_like(phi)
-    with np.errstate(divide="ignore", over="ignore"):
-        if e.tip is not None:
-            F = F * prandtl_factor(e.tip[index] / abs_s)
-        if e.hub is not None:
-            F = F * prandtl_factor(e.hub[index] / abs_s)
-    sigma = e.sigma[index]
+    F: Any = 1.0
+    if e.tip is not None:
+        F = prandtl_factor(take(e.tip) / abs_s)
+    if e.hub is not None:
+        F = F * prandtl_factor(take(e.hub) / abs_s)
+    if not isinstance(F, np.ndarray):
+        F = np.ones_like(phi)
+    sigma = take(e.sigma)
     k = sigma * cn / (4.0 * F * s * s)
     kp_cos = sigma * ct / (4.0 * F * s) if e.tangential else np.zeros_like(phi)
     windmill = phi > 0.0
-    a = momentum_axial_induction(k, F, high_thrust=e.high_thrust)
-    momentum = (k <= BUHL_SWITCH_K) | (not e.high_thrust)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        axial_term = np.where(
-            windmill, np.where(momentum, s * (1.0 + k), s / (1.0 - a)), s * (1.0 - k)
-        )
-        a = np.where(windmill, a, k / (k - 1.0))
+    # Ning's axial term: s (1 + k) with momentum theory, s / (1 - a) with Buhl's relation
+    # (k > 2/3), s (1 - k) in the propeller brake (phi < 0)
+    axial_term = s * np.where(windmill, 1.0 + k, 1.0 - k)
+    high = windmill & (k > BUHL_SWITCH_K) if e.high_thrust else None
+    if high is not None and high.any():
+        a_high = buhl_axial_induction(k[high], F[high])
+        axial_term[high] = s[high] / (1.0 - a_high)
     residual = axial_term - (c - kp_cos) / lam
+    if not full:
+        return {"residual": residual}
+    a = np.where(windmill, momentum_axial_induction(k, F, high_thrust=e.high_thrust),
+                 k / (k - 1.0))
     return {
         "residual": residual, "s": s, "c": c, "k": k, "kp_cos": kp_cos, "a": a, "F": F,
         "cl": cl, "cd": cd, "cn": cn, "ct": ct, "alpha_deg": alpha_deg, "outside": outside,
@@ -370,9 +390,9 @@ def _state(
 
 
 def _residual(
-    phi: FloatArray, e: _Elements, index: NDArray[np.intp] | slice, tables: _Tables
+    phi: FloatArray, e: _Elements, index: NDArray[np.intp] | None, tables: _Tables
 ) -> FloatArray:
-    return _state(phi, e, index, tables)["residual"]
+    return _state(phi, e, index, tables, full=False)["residual"]
 
 
 def _broadcast_operating(
@@ -469,104 +489,226 @@ def solve(
     See the module docstring (Ning 2014; Buhl 2005; Glauert 1935; Burton et al. 2011;
     Manwell et al. 2009).
     """
+    return prepare(
+        geometry, alpha_deg, cl, cd, tip_loss=tip_loss, hub_loss=hub_loss,
+        tangential_induction=tangential_induction, high_thrust=high_thrust,
+    ).solve(tip_speed_ratio, pitch_deg, wind_speed_m_s=wind_speed_m_s, rho_kg_m3=rho_kg_m3)
+
+
+def prepare(
+    geometry: RotorGeometry,
+    alpha_deg: ArrayLike,
+    cl: ArrayLike,
+    cd: ArrayLike,
+    *,
+    tip_loss: bool = True,
+    hub_loss: bool = True,
+    tangential_induction: bool = True,
+    high_thrust: bool = True,
+) -> PreparedRotor:
+    """A rotor with its station tables checked and laid out once for many solutions
+    (:meth:`PreparedRotor.solve`, :meth:`PreparedRotor.coefficients`); the parameters are
+    those of :func:`solve`."""
     if not isinstance(geometry, RotorGeometry):
         raise ParameterError("geometry", "must be a RotorGeometry")
-    n = geometry.size
-    tables = _tables(alpha_deg, cl, cd, n)
-    tsr, pitch = _broadcast_operating(tip_speed_ratio, pitch_deg)
-    shape = tsr.shape
-    m = tsr.size
-    r = geometry.radius_m
-    R = geometry.rotor_radius_m
-    R_hub = geometry.hub_radius_m
-    B = geometry.blade_count
-    tip_coeff = B / 2.0 * (R - r) / r if tip_loss else None
-    hub_coeff = B / 2.0 * (r - R_hub) / R_hub if (hub_loss and R_hub > 0.0) else None
-    unloaded = np.zeros(n, dtype=bool)
-    if tip_coeff is not None:
-        unloaded |= tip_coeff <= 0.0
-    if hub_coeff is not None:
-        unloaded |= hub_coeff <= 0.0
-    loaded = np.flatnonzero(~unloaded)
+    tables = _tables(alpha_deg, cl, cd, geometry.size)
+    return PreparedRotor(geometry, tables, {
+        "tip_loss": bool(tip_loss),
+        "hub_loss": bool(hub_loss),
+        "tangential_induction": bool(tangential_induction),
+        "high_thrust": bool(high_thrust),
+    })
 
-    lambda_r = (tsr.reshape(m, 1) * (r / R)).reshape(m, n)
-    theta = np.radians(geometry.twist_deg + pitch.reshape(m, 1))
-    rows = np.tile(loaded, m)
-    ops = np.repeat(np.arange(m), loaded.size)
-    elements = _Elements(
-        lambda_r=lambda_r[ops, rows],
-        theta_rad=theta[ops, rows],
-        sigma=geometry.solidity[rows],
-        tip=None if tip_coeff is None else tip_coeff[rows],
-        hub=None if hub_coeff is None else hub_coeff[rows],
-        row=rows.astype(np.intp),
-        offset=rows.astype(np.intp) * tables.size,
-        high_thrust=bool(high_thrust),
-        tangential=bool(tangential_induction),
-    )
-    count = rows.size
-    everything = np.arange(count)
 
-    def f(phi: FloatArray, index: NDArray[np.intp]) -> FloatArray:
-        return _residual(phi, elements, index, tables)
+@dataclass(frozen=True)
+class _Solution:
+    tsr: FloatArray
+    pitch: FloatArray
+    theta: FloatArray
+    lambda_r: FloatArray
+    unloaded: NDArray[np.bool_]
+    rows: NDArray[np.intp]
+    ops: NDArray[np.intp]
+    region: NDArray[np.int8]
+    roots: Any
+    state: dict[str, FloatArray]
 
-    eps = BRACKET_EPSILON_RAD
-    half_pi = 0.5 * math.pi
-    lower = np.full(count, eps)
-    upper = np.full(count, half_pi)
-    f_lower = f(lower, everything)
-    f_upper = f(upper, everything)
-    region = np.full(count, REGION_WINDMILL, dtype=np.int8)
-    missing = np.flatnonzero(f_lower * f_upper > 0.0)
-    if missing.size:
-        f_brake_lo = f(np.full(missing.size, -0.25 * math.pi), missing)
-        f_brake_hi = f(np.full(missing.size, -eps), missing)
-        brake = (f_brake_lo < 0.0) & (f_brake_hi > 0.0)
-        chosen = missing[brake]
-        lower[chosen], upper[chosen] = -0.25 * math.pi, -eps
-        f_lower[chosen], f_upper[chosen] = f_brake_lo[brake], f_brake_hi[brake]
-        region[chosen] = REGION_PROPELLER_BRAKE
-        rest = missing[~brake]
-        if rest.size:
-            f_far = f(np.full(rest.size, math.pi - eps), rest)
-            f_mid = f_upper[rest]
-            lower[rest], upper[rest] = half_pi, math.pi - eps
-            f_lower[rest], f_upper[rest] = f_mid, f_far
-            region[rest] = REGION_BEYOND_90
-            unbracketed = rest[f_mid * f_far > 0.0]
-            if unbracketed.size:
-                _scan_brackets(f, unbracketed, lower, upper, f_lower, f_upper, region, rows, ops)
-    _narrow_windmill_brackets(f, np.flatnonzero(region == REGION_WINDMILL), elements.lambda_r,
-                              lower, upper, f_lower, f_upper)
-    roots = bracketed_roots(f, lower, upper, f_lower, f_upper, f_tol=RESIDUAL_TOLERANCE)
-    if not np.all(roots.converged):
-        bad = int(np.flatnonzero(~roots.converged)[0])
-        raise ConvergenceError(
-            station=int(rows[bad]), operating_point=int(ops[bad]),
-            message="the root finder reached its iteration limit",
+
+@dataclass(frozen=True)
+class PreparedRotor:
+    """Geometry, prepared station tables and solver switches (made by :func:`prepare`)."""
+
+    geometry: RotorGeometry
+    tables: _Tables
+    options: dict[str, bool]
+
+    @property
+    def inputs(self) -> tuple[Any, Any, Any]:
+        """The tables as given: ``(alpha_deg, cl, cd)``."""
+        return self.tables.source
+
+    def solve(
+        self,
+        tip_speed_ratio: ArrayLike,
+        pitch_deg: ArrayLike = 0.0,
+        *,
+        wind_speed_m_s: ArrayLike | None = None,
+        rho_kg_m3: float = ISA_DENSITY_KG_M3,
+    ) -> BemResult:
+        """As :func:`solve` with this rotor's geometry, tables and switches."""
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+            solution = self._solve(tip_speed_ratio, pitch_deg)
+        return _assemble(self, solution, wind_speed_m_s, rho_kg_m3)
+
+    def coefficients(
+        self, tip_speed_ratio: ArrayLike, pitch_deg: ArrayLike = 0.0
+    ) -> tuple[FloatArray, FloatArray, float]:
+        """``(cp, ct, max_abs_residual)`` of :meth:`solve` alone (the same numbers, without
+        the per-station arrays), ``cp`` and ``ct`` shaped like the broadcast operating
+        points."""
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+            solution = self._solve(tip_speed_ratio, pitch_deg)
+            cp, ct, _, _ = _rotor_integrals(self, solution)
+        shape = solution.tsr.shape
+        residual = solution.roots.f
+        worst = float(np.max(np.abs(residual))) if residual.size else 0.0
+        return cp.reshape(shape), ct.reshape(shape), worst
+
+    def _solve(self, tip_speed_ratio: ArrayLike, pitch_deg: ArrayLike) -> _Solution:
+        geometry, tables, options = self.geometry, self.tables, self.options
+        tip_loss, hub_loss = options["tip_loss"], options["hub_loss"]
+        n = geometry.size
+        tsr, pitch = _broadcast_operating(tip_speed_ratio, pitch_deg)
+        m = tsr.size
+        r = geometry.radius_m
+        R = geometry.rotor_radius_m
+        R_hub = geometry.hub_radius_m
+        B = geometry.blade_count
+        tip_coeff = B / 2.0 * (R - r) / r if tip_loss else None
+        hub_coeff = B / 2.0 * (r - R_hub) / R_hub if (hub_loss and R_hub > 0.0) else None
+        unloaded = np.zeros(n, dtype=bool)
+        if tip_coeff is not None:
+            unloaded |= tip_coeff <= 0.0
+        if hub_coeff is not None:
+            unloaded |= hub_coeff <= 0.0
+        loaded = np.flatnonzero(~unloaded)
+
+        lambda_r = (tsr.reshape(m, 1) * (r / R)).reshape(m, n)
+        theta = np.radians(geometry.twist_deg + pitch.reshape(m, 1))
+        rows = np.tile(loaded, m)
+        ops = np.repeat(np.arange(m), loaded.size)
+        elements = _Elements(
+            lambda_r=lambda_r[ops, rows],
+            theta_rad=theta[ops, rows],
+            sigma=geometry.solidity[rows],
+            tip=None if tip_coeff is None else tip_coeff[rows],
+            hub=None if hub_coeff is None else hub_coeff[rows],
+            row=rows.astype(np.intp),
+            offset=rows.astype(np.intp) * tables.size,
+            high_thrust=options["high_thrust"],
+            tangential=options["tangential_induction"],
         )
-    state = _state(roots.x, elements, everything, tables)
+        count = rows.size
 
-    a = state["a"]
+        def f(phi: FloatArray, index: NDArray[np.intp] | None) -> FloatArray:
+            return _residual(phi, elements, index, tables)
+
+        eps = BRACKET_EPSILON_RAD
+        half_pi = 0.5 * math.pi
+        lower = np.full(count, eps)
+        upper = np.full(count, half_pi)
+        # Ning's bracket ends and the two points splitting the windmill bracket (see
+        # _narrow_windmill_brackets), evaluated in one call
+        free = np.arctan(1.0 / elements.lambda_r)
+        start = f(np.concatenate([lower, upper, np.maximum(0.5 * free, eps),
+                                  np.maximum(free, eps)]),
+                  np.tile(np.arange(count), 4)).reshape(4, count)
+        f_lower, f_upper = start[0].copy(), start[1].copy()
+        region = np.full(count, REGION_WINDMILL, dtype=np.int8)
+        missing = np.flatnonzero(f_lower * f_upper > 0.0)
+        if missing.size:
+            f_brake_lo = f(np.full(missing.size, -0.25 * math.pi), missing)
+            f_brake_hi = f(np.full(missing.size, -eps), missing)
+            brake = (f_brake_lo < 0.0) & (f_brake_hi > 0.0)
+            chosen = missing[brake]
+            lower[chosen], upper[chosen] = -0.25 * math.pi, -eps
+            f_lower[chosen], f_upper[chosen] = f_brake_lo[brake], f_brake_hi[brake]
+            region[chosen] = REGION_PROPELLER_BRAKE
+            rest = missing[~brake]
+            if rest.size:
+                f_far = f(np.full(rest.size, math.pi - eps), rest)
+                f_mid = f_upper[rest]
+                lower[rest], upper[rest] = half_pi, math.pi - eps
+                f_lower[rest], f_upper[rest] = f_mid, f_far
+                region[rest] = REGION_BEYOND_90
+                unbracketed = rest[f_mid * f_far > 0.0]
+                if unbracketed.size:
+                    _scan_brackets(f, unbracketed, lower, upper, f_lower, f_upper, region,
+                                   rows, ops)
+        windmill = np.flatnonzero(region == REGION_WINDMILL)
+        _narrow_windmill_brackets(f, windmill, elements.lambda_r, lower, upper, f_lower,
+                                  f_upper, (start[2][windmill], start[3][windmill]))
+        roots = bracketed_roots(f, lower, upper, f_lower, f_upper, f_tol=RESIDUAL_TOLERANCE)
+        if not np.all(roots.converged):
+            bad = int(np.flatnonzero(~roots.converged)[0])
+            raise ConvergenceError(
+                station=int(rows[bad]), operating_point=int(ops[bad]),
+                message="the root finder reached its iteration limit",
+            )
+        state = _state(roots.x, elements, None, tables)
+        return _Solution(tsr, pitch, theta, lambda_r, unloaded, rows, ops, region, roots, state)
+
+
+def _rotor_integrals(
+    rotor: PreparedRotor, sol: _Solution
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Cp, Ct, and the normal and tangential forces per unit dynamic pressure (m, n)."""
+    g = rotor.geometry
+    state = sol.state
+    m, n = sol.tsr.size, g.size
     s, c = state["s"], state["c"]
-    kp = np.zeros(count)
+    kp = np.zeros(s.size)
     nonzero = c != 0.0
     kp[nonzero] = state["kp_cos"][nonzero] / c[nonzero]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        a_t = kp / (1.0 - kp)
-        w_axial = (1.0 - a) / s
-        w_tangential = state["lambda_r"] * (1.0 + a_t) / c
+    a_t = kp / (1.0 - kp)
+    w_axial = (1.0 - state["a"]) / s
+    w_tangential = state["lambda_r"] * (1.0 + a_t) / c
     w2 = np.where(np.abs(s) >= np.abs(c), w_axial, w_tangential) ** 2
-    chord = geometry.chord_m[rows]
+    chord = g.chord_m[sol.rows]
+    normal = np.zeros((m, n))
+    tangential = np.zeros((m, n))
+    normal[sol.ops, sol.rows] = chord * state["cn"] * w2
+    tangential[sol.ops, sol.rows] = chord * state["ct"] * w2
+    r = g.radius_m
+    area = g.swept_area_m2
+    ct_rotor = g.blade_count * _trapezoid(normal, r) / area
+    cq_rotor = g.blade_count * _trapezoid(tangential * r, r) / (area * g.rotor_radius_m)
+    state["a_t"] = a_t
+    state["cq_rotor"] = cq_rotor
+    return sol.tsr.ravel() * cq_rotor, ct_rotor, normal, tangential
+
+
+def _assemble(
+    rotor: PreparedRotor, sol: _Solution, wind_speed_m_s: ArrayLike | None, rho_kg_m3: float
+) -> BemResult:
+    """The full :class:`BemResult` of a solution."""
+    g, tables, state = rotor.geometry, rotor.tables, sol.state
+    tsr, pitch, theta, ops, rows = sol.tsr, sol.pitch, sol.theta, sol.ops, sol.rows
+    shape = tsr.shape
+    m, n = tsr.size, g.size
+    r = g.radius_m
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        cp_rotor, ct_rotor, normal, tangential = _rotor_integrals(rotor, sol)
+    cq_rotor = state["cq_rotor"]
 
     def full(values: FloatArray, fill: float | bool | int = 0.0, dtype: Any = np.float64):
         out = np.full((m, n), fill, dtype=dtype)
         out[ops, rows] = values
         return out
 
-    phi_free = np.arctan2(1.0, lambda_r)  # no induction, for unloaded stations
-    inflow = np.where(unloaded, phi_free, 0.0)
-    inflow[ops, rows] = roots.x
+    phi_free = np.arctan2(1.0, sol.lambda_r)  # no induction, for unloaded stations
+    inflow = np.where(sol.unloaded, phi_free, 0.0)
+    inflow[ops, rows] = sol.roots.x
     alpha_free = np.degrees(inflow - theta)
     cl_free, cd_free, outside_free = tables.lookup(
         alpha_free.ravel(), np.tile(np.arange(n) * tables.size, m)
@@ -575,8 +717,6 @@ def solve(
     cd_all = cd_free.reshape(m, n)
     cl_all[ops, rows] = state["cl"]
     cd_all[ops, rows] = state["cd"]
-    normal = full(chord * state["cn"] * w2)
-    tangential = full(chord * state["ct"] * w2)
     if wind_speed_m_s is not None:
         try:
             speed = np.broadcast_to(np.asarray(wind_speed_m_s, dtype=np.float64), shape)
@@ -596,23 +736,10 @@ def solve(
     else:
         force_basis, moment_unit = "per unit dynamic pressure", "per unit dynamic pressure"
 
-    area = geometry.swept_area_m2
-    thrust_q = B * _trapezoid(full(chord * state["cn"] * w2), r)
-    torque_q = B * _trapezoid(full(chord * state["ct"] * w2) * r, r)
-    ct_rotor = thrust_q / area
-    cq_rotor = torque_q / (area * R)
-    cp_rotor = tsr.ravel() * cq_rotor
-    arm = r - R_hub
+    arm = r - g.hub_radius_m
     flap = _trapezoid(normal * arm, r)
     edge = _trapezoid(tangential * arm, r)
-
-    options = {
-        "tip_loss": bool(tip_loss),
-        "hub_loss": bool(hub_loss),
-        "tangential_induction": bool(tangential_induction),
-        "high_thrust": bool(high_thrust),
-    }
-    region_all = full(region, REGION_UNLOADED, np.int8)
+    options = dict(rotor.options)
     outside = outside_free.reshape(m, n).copy()
     outside[ops, rows] = state["outside"]
     return BemResult(
@@ -623,8 +750,8 @@ def solve(
         cq=cq_rotor.reshape(shape),
         root_flap_moment=flap.reshape(shape),
         root_edge_moment=edge.reshape(shape),
-        axial_induction=full(a),
-        tangential_induction=full(a_t),
+        axial_induction=full(state["a"]),
+        tangential_induction=full(state["a_t"]),
         inflow_angle_deg=np.degrees(inflow),
         alpha_deg=np.degrees(inflow - theta),
         cl=cl_all,
@@ -632,9 +759,9 @@ def solve(
         loss_factor=full(state["F"]),
         normal_force_n_per_m=normal,
         tangential_force_n_per_m=tangential,
-        residual=full(roots.f),
-        region=region_all,
-        iterations=full(roots.iterations, 0, np.int64),
+        residual=full(sol.roots.f),
+        region=full(sol.region, REGION_UNLOADED, np.int8),
+        iterations=full(sol.roots.iterations, 0, np.int64),
         outside_table=outside,
         force_basis=force_basis,
         moment_unit=moment_unit,

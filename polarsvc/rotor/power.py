@@ -7,8 +7,9 @@ Wind Energy Handbook, sec. 8.3; Manwell et al. 2009, sec. 8.2):
    (:func:`polarsvc.rotor.cp_surface`), its speed clipped to the minimum and maximum rotor
    speed (so at low wind it runs at minimum speed, at higher wind at constant maximum speed);
 2. where that would give more than the rated power, the pitch is raised (towards feather)
-   until the electrical power equals the rated power; the pitch is solved for, per wind
-   speed, by the array root finder of :mod:`polarsvc.rotor.roots`;
+   until the electrical power equals the rated power; the pitch at every such wind speed
+   and the rated wind speed are solved for together by the array root finder of
+   :mod:`polarsvc.rotor.roots` (each of its steps one BEM solve of all of them);
 3. no power below cut-in or above cut-out.
 
 Electrical power = drivetrain-generator efficiency x aerodynamic power
@@ -25,7 +26,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from polarsvc.aero.errors import ParameterError, show_value
-from polarsvc.rotor.bem import ISA_DENSITY_KG_M3, BemResult, solve
+from polarsvc.rotor.bem import ISA_DENSITY_KG_M3, BemResult, PreparedRotor, prepare
 from polarsvc.rotor.geometry import RotorGeometry
 from polarsvc.rotor.roots import bracketed_roots
 from polarsvc.rotor.surface import DEFAULT_TIP_SPEED_RATIOS, cp_surface
@@ -127,7 +128,9 @@ class TurbineData:
 @dataclass(frozen=True)
 class OperatingStates:
     """Control settings and BEM solution at each wind speed (shape ``(speeds,)``; the
-    ``bem`` result holds the per-station arrays in N/m and N m)."""
+    ``bem`` result holds the per-station arrays in N/m and N m), the rated wind speed
+    (None if rated power is never reached; it is one of the speeds otherwise) and Cp, Ct
+    at the fine pitch along ``fine_pitch_tip_speed_ratio`` (empty unless asked for)."""
 
     wind_speed_m_s: FloatArray
     rotor_speed_rpm: FloatArray
@@ -139,6 +142,11 @@ class OperatingStates:
     thrust_n: FloatArray
     torque_n_m: FloatArray
     bem: BemResult
+    rated_wind_speed_m_s: float | None = None
+    fine_pitch_tip_speed_ratio: FloatArray = field(default_factory=lambda: np.zeros(0))
+    fine_pitch_cp: FloatArray = field(default_factory=lambda: np.zeros(0))
+    fine_pitch_ct: FloatArray = field(default_factory=lambda: np.zeros(0))
+    max_abs_residual: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -186,6 +194,18 @@ def _speed_schedule(
     return omega, omega * R / speed, modes
 
 
+RATED_SCAN_STEP_M_S = 0.5
+"""Steps of the scan for the rated wind speed (cut-in to cut-out, the curve's speeds
+added) before the root finder."""
+RATED_TOLERANCE = 1e-12
+"""Relative tolerance of the power match at the rated wind speed."""
+
+PITCH_SCAN_STAGES_DEG = ((6.0, 12.0), (18.0, 24.0), (30.0, 36.0, 42.0, 48.0))
+"""Pitches above the fine pitch [deg] scanned for the falling crossing of rated power, in
+stages: a stage is solved only for the wind speeds not yet bracketed by the ones before."""
+PITCH_SCAN_STEP_DEG = 1.5
+
+
 def operating_states(
     geometry: RotorGeometry,
     alpha_deg: ArrayLike,
@@ -196,34 +216,107 @@ def operating_states(
     *,
     best_tip_speed_ratio: float,
     fine_pitch_deg: float,
-    rated_wind_speed_m_s: float | None,
+    fine_pitch_tip_speed_ratio: ArrayLike = (),
+    rotor: PreparedRotor | None = None,
     **options: Any,
 ) -> OperatingStates:
-    """Control settings and BEM solution at the given wind speeds (module docstring);
-    above ``rated_wind_speed_m_s`` (see :func:`rated_wind_speed`) the pitch holds rated
-    power."""
+    """Control settings and BEM solution at the given wind speeds and at the rated wind
+    speed (module docstring), which is found here: the lowest wind speed where the speed
+    schedule at fine pitch reaches rated power (scan of cut-in..cut-out in 0.5 m/s steps
+    with the given speeds, then the root finder). Above it the pitch holds rated power.
+
+    Work is batched: one solve at fine pitch for the scan, the given speeds and
+    ``fine_pitch_tip_speed_ratio`` (Cp along the tip speed ratio, returned as
+    ``fine_pitch_cp``); a staged pitch scan for the speeds above rated; one array root
+    finder for the rated wind speed and every pitch together; one final solve.
+    ``rotor`` is a prepared rotor (:func:`polarsvc.rotor.bem.prepare`) of the same geometry,
+    tables and switches, else one is made from ``options``."""
     speed = np.atleast_1d(np.asarray(wind_speed_m_s, dtype=np.float64))
     if speed.ndim != 1 or not np.all(np.isfinite(speed) & (speed > 0.0)):
         raise ParameterError("wind_speed_m_s", "must be positive wind speeds")
-    omega, tsr, modes = _speed_schedule(geometry, turbine, speed, best_tip_speed_ratio)
-    pitch = np.full(speed.size, float(fine_pitch_deg))
-    wind_power = _wind_power(turbine, geometry, speed)
-    scale = turbine.efficiency * wind_power / turbine.rated_power_w
+    prepared = rotor if rotor is not None else prepare(geometry, alpha_deg, cl, cd, **options)
+    fine = float(fine_pitch_deg)
+    best = float(best_tip_speed_ratio)
+    extra = np.atleast_1d(np.asarray(fine_pitch_tip_speed_ratio, dtype=np.float64))
 
-    result = solve(geometry, alpha_deg, cl, cd, tsr, pitch, **options)
-    above = scale * result.cp > 1.0 + POWER_TOLERANCE
-    if rated_wind_speed_m_s is not None:
-        above |= speed > rated_wind_speed_m_s
+    scan = np.append(
+        np.arange(turbine.cut_in_m_s, turbine.cut_out_m_s - 1e-9, RATED_SCAN_STEP_M_S),
+        turbine.cut_out_m_s,
+    )
+    grid = np.unique(np.concatenate([scan, speed]))
+    _, grid_tsr, _ = _speed_schedule(geometry, turbine, grid, best)
+    cp_all, ct_all, residual = prepared.coefficients(np.concatenate([grid_tsr, extra]), fine)
+    grid_excess = _scale(turbine, geometry, grid) * cp_all[:grid.size] - 1.0
+
+    # rated wind speed: bracket between consecutive grid speeds within cut-in..cut-out
+    within = np.flatnonzero((grid >= turbine.cut_in_m_s) & (grid <= turbine.cut_out_m_s))
+    reached = within[grid_excess[within] >= 0.0]
+    rated_bracket: tuple[int, int] | None = None
+    rated: float | None = None
+    if reached.size:
+        j = int(np.searchsorted(within, reached[0]))
+        if j == 0:
+            rated = float(grid[within[0]])
+        else:
+            rated_bracket = (int(within[j - 1]), int(within[j]))
+        first_above = float(grid[reached[0]])
+    excess = grid_excess[np.searchsorted(grid, speed)]
+    above = excess > POWER_TOLERANCE
+    if reached.size:
+        above |= (speed > first_above) | ((speed == first_above) & (excess > 0.0))
     above_index = np.flatnonzero(above)
-    if above_index.size:
-        pitch[above_index] = _pitch_for_rated_power(
-            geometry, alpha_deg, cl, cd, tsr[above_index], scale[above_index],
-            float(fine_pitch_deg), speed[above_index], options,
-        )
-        for i in above_index:
-            modes[i] = MODE_RATED
-    result = solve(geometry, alpha_deg, cl, cd, tsr, pitch, wind_speed_m_s=speed,
-                   rho_kg_m3=turbine.rho_kg_m3, **options)
+
+    omega, tsr, modes = _speed_schedule(geometry, turbine, speed, best)
+    scale = _scale(turbine, geometry, speed)
+    lower, upper, f_lower, f_upper = _pitch_brackets(
+        prepared, tsr[above_index], scale[above_index], excess[above_index], fine,
+        speed[above_index],
+    )
+    tolerance = np.full(above_index.size, POWER_TOLERANCE)
+    if rated_bracket is not None:
+        lo, hi = rated_bracket
+        lower = np.append(lower, grid[lo])
+        upper = np.append(upper, grid[hi])
+        f_lower = np.append(f_lower, grid_excess[lo])
+        f_upper = np.append(f_upper, grid_excess[hi])
+        tolerance = np.append(tolerance, RATED_TOLERANCE)
+    count = above_index.size
+    fixed_tsr = tsr[above_index]
+    fixed_scale = scale[above_index]
+
+    def function(x: FloatArray, index: NDArray[np.intp]) -> FloatArray:
+        # elements 0..count-1: pitch of a wind speed above rated; element count: the
+        # rated wind speed at fine pitch
+        is_rated = index == count
+        pitches = np.where(is_rated, fine, x)
+        ratios = np.empty(x.size)
+        factors = np.empty(x.size)
+        pitch_rows = index[~is_rated]
+        ratios[~is_rated] = fixed_tsr[pitch_rows]
+        factors[~is_rated] = fixed_scale[pitch_rows]
+        if is_rated.any():
+            u = x[is_rated]
+            _, ratios[is_rated], _ = _speed_schedule(geometry, turbine, u, best)
+            factors[is_rated] = _scale(turbine, geometry, u)
+        cp, _, _ = prepared.coefficients(ratios, pitches)
+        return factors * cp - 1.0
+
+    pitch = np.full(speed.size, fine)
+    if lower.size:
+        roots = bracketed_roots(function, lower, upper, f_lower, f_upper, f_tol=tolerance)
+        pitch[above_index] = roots.x[:count]
+        if rated_bracket is not None:
+            rated = float(roots.x[count])
+    if rated is not None and not np.any(speed == rated):
+        # the rated wind speed joins the curve, at fine pitch
+        where = int(np.searchsorted(speed, rated)) if np.all(np.diff(speed) > 0) else speed.size
+        speed = np.insert(speed, where, rated)
+        pitch = np.insert(pitch, where, fine)
+        above = np.insert(above, where, False)
+        omega, tsr, modes = _speed_schedule(geometry, turbine, speed, best)
+    modes = [MODE_RATED if pitched else mode for pitched, mode in zip(above, modes, strict=True)]
+    wind_power = _wind_power(turbine, geometry, speed)
+    result = prepared.solve(tsr, pitch, wind_speed_m_s=speed, rho_kg_m3=turbine.rho_kg_m3)
     aero = result.cp * wind_power
     return OperatingStates(
         wind_speed_m_s=speed,
@@ -236,112 +329,76 @@ def operating_states(
         thrust_n=result.ct * 0.5 * turbine.rho_kg_m3 * speed**2 * geometry.swept_area_m2,
         torque_n_m=aero / omega,
         bem=result,
+        rated_wind_speed_m_s=rated,
+        fine_pitch_tip_speed_ratio=extra,
+        fine_pitch_cp=cp_all[grid.size:],
+        fine_pitch_ct=ct_all[grid.size:],
+        max_abs_residual=max(residual, result.max_abs_residual),
     )
 
 
-PITCH_SCAN_COARSE_STEP_DEG = 6.0
-PITCH_SCAN_COARSE_SPAN_DEG = 48.0
-PITCH_SCAN_STEP_DEG = 1.5
+def _scale(turbine: TurbineData, geometry: RotorGeometry, speed: FloatArray) -> FloatArray:
+    """Electrical power per unit Cp over the rated power."""
+    return turbine.efficiency * _wind_power(turbine, geometry, speed) / turbine.rated_power_w
 
 
-def _falling_crossings(
-    geometry: RotorGeometry, alpha_deg: ArrayLike, cl: ArrayLike, cd: ArrayLike,
-    tsr: FloatArray, scale: FloatArray, grid: FloatArray, options: dict[str, Any],
-) -> tuple[FloatArray, NDArray[np.bool_]]:
-    T, P = np.meshgrid(tsr, grid, indexing="ij")
-    excess = scale[:, None] * solve(geometry, alpha_deg, cl, cd, T, P, **options).cp - 1.0
-    return excess, (excess[:, :-1] > 0.0) & (excess[:, 1:] <= 0.0)
-
-
-def _pitch_for_rated_power(
-    geometry: RotorGeometry,
-    alpha_deg: ArrayLike,
-    cl: ArrayLike,
-    cd: ArrayLike,
+def _pitch_brackets(
+    rotor: PreparedRotor,
     tsr: FloatArray,
     scale: FloatArray,
+    excess_fine: FloatArray,
     fine_pitch: float,
     speed: FloatArray,
-    options: dict[str, Any],
-) -> FloatArray:
-    """Pitch towards feather that gives rated power: the first pitch above the fine pitch
-    where the power falls through rated (a stalled rotor first gains power when pitched,
-    so the fine pitch itself may lie below rated). Scan in 6 deg steps to 48 deg above the
-    fine pitch (one vectorised solve); where that finds no falling crossing, in 1.5 deg
-    steps up to feather; then the array root finder within the bracketing step."""
-    coarse = fine_pitch + np.arange(0.0, PITCH_SCAN_COARSE_SPAN_DEG + 1e-9,
-                                    PITCH_SCAN_COARSE_STEP_DEG)
-    excess, falling = _falling_crossings(geometry, alpha_deg, cl, cd, tsr, scale, coarse,
-                                         options)
-    found = falling.any(axis=1)
-    k = np.argmax(falling, axis=1)
-    lower = coarse[k]
-    upper = coarse[np.minimum(k + 1, coarse.size - 1)]
-    rows = np.arange(tsr.size)
-    f_lower = excess[rows, k]
-    f_upper = excess[rows, np.minimum(k + 1, coarse.size - 1)]
-    if not np.all(found):
-        rest = np.flatnonzero(~found)
-        fine = np.append(np.arange(fine_pitch, FEATHER_PITCH_DEG, PITCH_SCAN_STEP_DEG),
-                         FEATHER_PITCH_DEG)
-        more, falling_more = _falling_crossings(
-            geometry, alpha_deg, cl, cd, tsr[rest], scale[rest], fine, options
-        )
-        hit = falling_more.any(axis=1)
-        if not np.all(hit):
-            bad = float(speed[rest[int(np.argmin(hit))]])
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Brackets of the pitch towards feather that gives rated power: the first pitch above
+    the fine pitch where the power falls through rated (a stalled rotor first gains power
+    when pitched, so the fine pitch itself may lie below rated). Scan in 6 deg steps to
+    48 deg above the fine pitch, in stages (:data:`PITCH_SCAN_STAGES_DEG`); where that
+    finds no falling crossing, in 1.5 deg steps up to feather."""
+    count = tsr.size
+    lower, upper = np.zeros(count), np.zeros(count)
+    f_lower, f_upper = np.zeros(count), np.zeros(count)
+    last_pitch = np.full(count, fine_pitch)
+    last_value = np.array(excess_fine, dtype=np.float64)
+    rest = np.arange(count)
+
+    def scan(rows: NDArray[np.intp], pitches: FloatArray) -> NDArray[np.intp]:
+        T, P = np.meshgrid(tsr[rows], pitches, indexing="ij")
+        cp, _, _ = rotor.coefficients(T, P)
+        values = np.column_stack([last_value[rows], scale[rows, None] * cp - 1.0])
+        angles = np.concatenate([[0.0], pitches])
+        falling = (values[:, :-1] > 0.0) & (values[:, 1:] <= 0.0)
+        found = falling.any(axis=1)
+        k = np.argmax(falling, axis=1)
+        hit = rows[found]
+        kf = k[found]
+        start = np.where(kf == 0, last_pitch[hit], angles[kf])
+        lower[hit], upper[hit] = start, angles[kf + 1]
+        f_lower[hit] = values[found, kf]
+        f_upper[hit] = values[found, kf + 1]
+        last_pitch[rows] = pitches[-1]
+        last_value[rows] = values[:, -1]
+        return rows[~found]
+
+    for stage in PITCH_SCAN_STAGES_DEG:
+        if rest.size == 0:
+            break
+        rest = scan(rest, fine_pitch + np.asarray(stage))
+    if rest.size:
+        # no falling crossing in the coarse steps: again from the fine pitch in 1.5 deg
+        # steps up to feather
+        last_pitch[rest] = fine_pitch
+        last_value[rest] = excess_fine[rest]
+        steps = np.append(np.arange(fine_pitch + PITCH_SCAN_STEP_DEG, FEATHER_PITCH_DEG,
+                                    PITCH_SCAN_STEP_DEG), FEATHER_PITCH_DEG)
+        rest = scan(rest, steps)
+        if rest.size:
             raise ParameterError(
                 "rated_power_w",
-                f"is not reached at {bad:g} m/s at any pitch between {fine_pitch:g} and "
-                f"{FEATHER_PITCH_DEG:g} deg",
+                f"is not reached at {float(speed[rest[0]]):g} m/s at any pitch between "
+                f"{fine_pitch:g} and {FEATHER_PITCH_DEG:g} deg",
             )
-        j = np.argmax(falling_more, axis=1)
-        local = np.arange(rest.size)
-        lower[rest], upper[rest] = fine[j], fine[j + 1]
-        f_lower[rest], f_upper[rest] = more[local, j], more[local, j + 1]
-
-    def function(beta: FloatArray, index: np.ndarray) -> FloatArray:
-        cp = solve(geometry, alpha_deg, cl, cd, tsr[index], beta, **options).cp
-        return scale[index] * cp - 1.0
-
-    roots = bracketed_roots(function, lower, upper, f_lower, f_upper, f_tol=POWER_TOLERANCE)
-    return roots.x
-
-
-def rated_wind_speed(
-    geometry: RotorGeometry,
-    alpha_deg: ArrayLike,
-    cl: ArrayLike,
-    cd: ArrayLike,
-    turbine: TurbineData,
-    best_tsr: float,
-    fine_pitch: float,
-    options: dict[str, Any],
-) -> float | None:
-    """Lowest wind speed [m/s] where the speed schedule at fine pitch reaches rated power
-    (scan in 0.5 m/s steps from cut-in, then the root finder), or None if it never does."""
-    scan = np.arange(turbine.cut_in_m_s, turbine.cut_out_m_s - 1e-9, 0.5)
-    scan = np.append(scan, turbine.cut_out_m_s)
-
-    def excess(speed: FloatArray) -> FloatArray:
-        _, tsr, _ = _speed_schedule(geometry, turbine, speed, best_tsr)
-        cp = solve(geometry, alpha_deg, cl, cd, tsr, fine_pitch, **options).cp
-        return turbine.efficiency * cp * _wind_power(turbine, geometry, speed) / (
-            turbine.rated_power_w
-        ) - 1.0
-
-    values = excess(scan)
-    crossing = np.flatnonzero(values >= 0.0)
-    if crossing.size == 0:
-        return None
-    j = int(crossing[0])
-    if j == 0:
-        return float(scan[0])
-    roots = bracketed_roots(
-        lambda x, _index: excess(x), scan[j - 1: j], scan[j: j + 1], values[j - 1: j],
-        values[j: j + 1], f_tol=1e-12,
-    )
-    return float(roots.x[0])
+    return lower, upper, f_lower, f_upper
 
 
 def power_curve(
@@ -372,7 +429,9 @@ def power_curve(
     **options
         Switches of :func:`polarsvc.rotor.solve`.
     """
-    surface = cp_surface(geometry, alpha_deg, cl, cd, tip_speed_ratio, pitch_deg, **options)
+    prepared = prepare(geometry, alpha_deg, cl, cd, **options)
+    surface = cp_surface(geometry, alpha_deg, cl, cd, tip_speed_ratio, pitch_deg,
+                         rotor=prepared)
     best_tsr, fine_pitch = surface.best_tip_speed_ratio, surface.best_pitch_deg
     if wind_speed_m_s is None:
         count = round((turbine.cut_out_m_s - turbine.cut_in_m_s) / DEFAULT_WIND_STEP_M_S)
@@ -381,16 +440,15 @@ def power_curve(
         speeds = np.atleast_1d(np.asarray(wind_speed_m_s, dtype=np.float64))
         if speeds.ndim != 1 or not np.all(np.isfinite(speeds)):
             raise ParameterError("wind_speed_m_s", "must be a 1-D array of finite speeds")
-    speeds = speeds[(speeds >= turbine.cut_in_m_s) & (speeds <= turbine.cut_out_m_s)]
-    rated = rated_wind_speed(geometry, alpha_deg, cl, cd, turbine, best_tsr, fine_pitch,
-                             dict(options))
-    if rated is not None:
-        speeds = np.append(speeds, rated)
-    speeds = np.unique(speeds)
-    if speeds.size < 2:
+    speeds = np.unique(
+        speeds[(speeds >= turbine.cut_in_m_s) & (speeds <= turbine.cut_out_m_s)]
+    )
+    if speeds.size == 0:
         raise ParameterError("wind_speed_m_s", "needs at least two speeds within cut-in..cut-out")
     states = operating_states(geometry, alpha_deg, cl, cd, turbine, speeds,
                               best_tip_speed_ratio=best_tsr, fine_pitch_deg=fine_pitch,
-                              rated_wind_speed_m_s=rated, **options)
-    return PowerCurve(states, rated, best_tsr, fine_pitch, surface.cp_max, turbine,
-                      dict(states.bem.options))
+                              rotor=prepared)
+    if states.wind_speed_m_s.size < 2:
+        raise ParameterError("wind_speed_m_s", "needs at least two speeds within cut-in..cut-out")
+    return PowerCurve(states, states.rated_wind_speed_m_s, best_tsr, fine_pitch,
+                      surface.cp_max, turbine, dict(states.bem.options))

@@ -44,7 +44,7 @@ def bracketed_roots(
     f_lower: FloatArray,
     f_upper: FloatArray,
     *,
-    f_tol: float = 1e-13,
+    f_tol: float | FloatArray = 1e-13,
     x_tol: float = 4e-16,
     max_iterations: int = 200,
     bisect_after: int = 60,
@@ -59,8 +59,8 @@ def bracketed_roots(
         Bracket ends per element.
     f_lower, f_upper : ndarray
         Function values at the ends; ``f_lower * f_upper <= 0`` is required (checked).
-    f_tol : float
-        An element stops when ``|f| <= f_tol``.
+    f_tol : float or ndarray
+        An element stops when ``|f| <= f_tol`` (one value, or one per element).
     x_tol : float
         ... or when its bracket is narrower than ``x_tol * max(1, |x|)`` (a few units in
         the last place).
@@ -78,43 +78,51 @@ def bracketed_roots(
     if np.any(fa * fb > 0.0) or not (np.all(np.isfinite(fa)) and np.all(np.isfinite(fb))):
         raise ValueError("every element needs a finite bracket with a sign change")
     count = a.size
+    tolerance = np.broadcast_to(np.asarray(f_tol, dtype=np.float64), (count,))
     iterations = np.zeros(count, dtype=np.int64)
     # the bracket end with the smaller |f| is the current best estimate
     best_x = np.where(np.abs(fa) <= np.abs(fb), a, b)
     best_f = np.where(np.abs(fa) <= np.abs(fb), fa, fb)
-    done = (np.abs(best_f) <= f_tol) | (np.abs(b - a) <= x_tol * np.maximum(1.0, np.abs(a)))
+    done = (np.abs(best_f) <= tolerance) | (np.abs(b - a) <= x_tol * np.maximum(1.0, np.abs(a)))
     active = np.flatnonzero(~done)
-    for _ in range(max_iterations):
-        if active.size == 0:
-            break
-        A, B, FA, FB = a[active], b[active], fa[active], fb[active]
-        with np.errstate(divide="ignore", invalid="ignore"):
+    # the active elements' state, kept compact (gathered once, written back when they stop)
+    A, B, FA, FB = a[active], b[active], fa[active], fb[active]
+    X, FX, TOL = best_x[active], best_f[active], tolerance[active]
+    steps = 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for steps in range(1, max_iterations + 1):
+            if active.size == 0:
+                break
             c = B - FB * (B - A) / (FB - FA)
-        low = np.minimum(A, B)
-        high = np.maximum(A, B)
-        bisect = (
-            ~np.isfinite(c) | (c <= low) | (c >= high) | (iterations[active] >= bisect_after)
-        )
-        c = np.where(bisect, 0.5 * (A + B), c)
-        fc = function(c, active)
-        iterations[active] += 1
-        opposite = np.sign(fc) != np.sign(FB)
-        # Anderson-Bjoerck: when the same end is kept, scale its value down
-        with np.errstate(divide="ignore", invalid="ignore"):
+            bisect = ~((c > np.minimum(A, B)) & (c < np.maximum(A, B)))  # also NaN
+            if steps > bisect_after:
+                bisect[:] = True
+            c = np.where(bisect, 0.5 * (A + B), c)
+            fc = function(c, active)
+            opposite = np.sign(fc) != np.sign(FB)
+            # Anderson-Bjoerck: when the same end is kept, scale its value down
             m = 1.0 - fc / FB
-        m = np.where(np.isfinite(m) & (m > 0.0), m, 0.5)
-        new_a = np.where(opposite, B, A)
-        new_fa = np.where(opposite, FB, np.where(bisect, FA, FA * m))
-        a[active], fa[active] = new_a, new_fa
-        b[active], fb[active] = c, fc
-        better = np.abs(fc) <= np.abs(best_f[active])
-        best_x[active] = np.where(better, c, best_x[active])
-        best_f[active] = np.where(better, fc, best_f[active])
-        width = np.abs(c - new_a)
-        finished = (np.abs(fc) <= f_tol) | (fc == 0.0) | (
-            width <= x_tol * np.maximum(1.0, np.abs(c))
-        )
-        active = active[~finished]
+            m = np.where(np.isfinite(m) & (m > 0.0), m, 0.5)
+            A = np.where(opposite, B, A)
+            FA = np.where(opposite, FB, np.where(bisect, FA, FA * m))
+            B, FB = c, fc
+            better = np.abs(fc) <= np.abs(FX)
+            X = np.where(better, c, X)
+            FX = np.where(better, fc, FX)
+            finished = (np.abs(fc) <= TOL) | (fc == 0.0) | (
+                np.abs(c - A) <= x_tol * np.maximum(1.0, np.abs(c))
+            )
+            if finished.any():
+                stop = active[finished]
+                best_x[stop], best_f[stop] = X[finished], FX[finished]
+                iterations[stop] = steps
+                keep = ~finished
+                active = active[keep]
+                A, B, FA, FB = A[keep], B[keep], FA[keep], FB[keep]
+                X, FX, TOL = X[keep], FX[keep], TOL[keep]
     converged = np.ones(count, dtype=bool)
-    converged[active] = False
+    if active.size:
+        best_x[active], best_f[active] = X, FX
+        iterations[active] = steps
+        converged[active] = False
     return Roots(best_x, best_f, iterations, converged)

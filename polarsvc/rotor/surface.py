@@ -9,7 +9,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 from polarsvc.aero.errors import ParameterError
-from polarsvc.rotor.bem import solve
+from polarsvc.rotor.bem import PreparedRotor, prepare
 from polarsvc.rotor.geometry import RotorGeometry
 
 FloatArray = NDArray[np.float64]
@@ -20,8 +20,14 @@ DEFAULT_TIP_SPEED_RATIOS = np.linspace(1.0, 15.0, 57)
 DEFAULT_PITCHES_DEG = np.linspace(-5.0, 40.0, 46)
 """-5 to 40 deg in steps of 1 deg."""
 
-ZOOM_POINTS = 5
-ZOOM_STEPS = 6
+ZOOM_POINTS = 9
+"""Points per axis of each local grid (spacing a quarter of its half-width)."""
+ZOOM_FIRST_SPAN_CELLS = 2.0
+"""Half-width of the first local grid, in grid cells around the grid maximum."""
+ZOOM_RESOLUTION = 1.0 / 512.0
+"""The search stops when the local spacing is below this fraction of a grid cell."""
+ZOOM_MAX_STEPS = 24
+"""Bound on the local grids solved (each one array solve)."""
 
 
 @dataclass(frozen=True)
@@ -59,10 +65,22 @@ def best_operating_point(
     cp: FloatArray,
     **options: Any,
 ) -> tuple[float, float, float]:
-    """Refine the grid maximum of ``cp`` by successive zooms: a 5 x 5 grid spanning the
-    neighbouring grid cells, solved at once, then again around its maximum with half the
-    span (6 times, a 64th of a grid cell at the end); bounded by the outer grid. Returns
-    (tip speed ratio, pitch, Cp)."""
+    """Refine the grid maximum of ``cp`` by a search on local grids: a 9 x 9 grid spanning
+    two grid cells either side of the grid maximum is solved at once. Where its best point
+    lies inside it and Cp is concave there, the next grid is centred on the vertex of the
+    quadratic through the best point's 3 x 3 neighbourhood (central differences) with an
+    eighth of the span.
+    Otherwise, along an axis where the best point lies inside, the span shrinks to a
+    quarter around it; along an axis where it lies on the edge (the maximum lies further
+    out, as on a ridge oblique to the axes) the grid moves there with the same span. It
+    stops when the spacing is a 512th of a grid cell along both axes (or after 24 grids);
+    every grid is bounded by the outer grid. The result is the best point solved.
+    Returns (tip speed ratio, pitch, Cp). ``options`` are the
+    switches of :func:`polarsvc.rotor.solve`, or ``rotor=`` a
+    :class:`polarsvc.rotor.bem.PreparedRotor` made from the same geometry and tables."""
+    prepared = options.pop("rotor", None)
+    if not isinstance(prepared, PreparedRotor):
+        prepared = prepare(geometry, alpha_deg, cl, cd, **options)
     i, j = np.unravel_index(int(np.argmax(cp)), cp.shape)
     best = (float(tip_speed_ratio[i]), float(pitch_deg[j]), float(cp[i, j]))
 
@@ -71,23 +89,68 @@ def best_operating_point(
             return 0.0
         return float(np.max(np.diff(axis)[max(k - 1, 0): k + 1]))
 
-    half = [cell(tip_speed_ratio, int(i)), cell(pitch_deg, int(j))]
-    for _ in range(ZOOM_STEPS):
-        lam = np.clip(
-            np.linspace(best[0] - half[0], best[0] + half[0], ZOOM_POINTS),
-            tip_speed_ratio[0], tip_speed_ratio[-1],
-        )
-        beta = np.clip(
-            np.linspace(best[1] - half[1], best[1] + half[1], ZOOM_POINTS),
-            pitch_deg[0], pitch_deg[-1],
-        )
-        L, P = np.meshgrid(np.unique(lam), np.unique(beta), indexing="ij")
-        local = solve(geometry, alpha_deg, cl, cd, L, P, **options).cp
+    axes = (tip_speed_ratio, pitch_deg)
+    cells = [cell(tip_speed_ratio, int(i)), cell(pitch_deg, int(j))]
+    finest = [h * ZOOM_RESOLUTION * (ZOOM_POINTS - 1) / 2.0 for h in cells]
+    half = [ZOOM_FIRST_SPAN_CELLS * h for h in cells]
+    best_at: tuple[float, float] | None = None
+    for _ in range(ZOOM_MAX_STEPS):
+        middle = best_at if best_at is not None else best[:2]
+        points = [
+            np.unique(np.clip(np.linspace(middle[a] - half[a], middle[a] + half[a],
+                                          ZOOM_POINTS), axes[a][0], axes[a][-1]))
+            for a in (0, 1)
+        ]
+        L, P = np.meshgrid(points[0], points[1], indexing="ij")
+        local, _, _ = prepared.coefficients(L, P)
         k = int(np.argmax(local))
         if local.flat[k] > best[2]:
             best = (float(L.flat[k]), float(P.flat[k]), float(local.flat[k]))
-        half = [h / 2.0 for h in half]
+        if half[0] <= finest[0] and half[1] <= finest[1]:
+            break
+        index = np.unravel_index(k, local.shape)
+        centre = _quadratic_vertex(local, points, index)
+        if centre is not None:
+            # best point inside the grid and Cp concave there: the next grid is centred on
+            # the vertex of the local quadratic, with an eighth of the span
+            best_at = centre
+            half = [max(h / 8.0, f) for h, f in zip(half, finest, strict=True)]
+            continue
+        best_at = None
+        for a in (0, 1):
+            position = points[a][index[a]]
+            on_edge = (index[a] in (0, points[a].size - 1)
+                      and axes[a][0] < position < axes[a][-1])
+            if not on_edge or half[a] <= finest[a]:
+                half[a] = max(half[a] * 2.0 / (ZOOM_POINTS - 1), finest[a])
     return best
+
+
+def _quadratic_vertex(
+    values: FloatArray, points: list[FloatArray], index: tuple[Any, ...]
+) -> tuple[float, float] | None:
+    """Vertex of the quadratic through the 3 x 3 neighbourhood of ``index`` (central
+    differences), moved at most one spacing along each axis; None where ``index`` is on the
+    grid's edge, the spacing is uneven or the quadratic is not concave."""
+    i, j = int(index[0]), int(index[1])
+    x, y = points
+    if not (0 < i < x.size - 1 and 0 < j < y.size - 1):
+        return None
+    hx, hy = x[i + 1] - x[i], y[j + 1] - y[j]
+    if abs((x[i] - x[i - 1]) - hx) > 1e-9 * hx or abs((y[j] - y[j - 1]) - hy) > 1e-9 * hy:
+        return None
+    f = values[i - 1: i + 2, j - 1: j + 2]
+    gx = (f[2, 1] - f[0, 1]) / (2.0 * hx)
+    gy = (f[1, 2] - f[1, 0]) / (2.0 * hy)
+    hxx = (f[2, 1] - 2.0 * f[1, 1] + f[0, 1]) / hx**2
+    hyy = (f[1, 2] - 2.0 * f[1, 1] + f[1, 0]) / hy**2
+    hxy = (f[2, 2] - f[2, 0] - f[0, 2] + f[0, 0]) / (4.0 * hx * hy)
+    det = hxx * hyy - hxy * hxy
+    if not (hxx < 0.0 and det > 0.0):
+        return None
+    dx = -(hyy * gx - hxy * gy) / det
+    dy = -(hxx * gy - hxy * gx) / det
+    return (float(x[i] + np.clip(dx, -hx, hx)), float(y[j] + np.clip(dy, -hy, hy)))
 
 
 def cp_surface(
@@ -116,17 +179,20 @@ def cp_surface(
         Refine the maximum between grid points (:func:`best_operating_point`).
     **options
         ``tip_loss``, ``hub_loss``, ``tangential_induction``, ``high_thrust`` of
-        :func:`polarsvc.rotor.solve`.
+        :func:`polarsvc.rotor.solve`; or ``rotor=`` a prepared rotor
+        (:func:`polarsvc.rotor.bem.prepare`) of the same geometry and tables.
     """
     tsr = _axis("tip_speed_ratio", tip_speed_ratio)
     pitch = _axis("pitch_deg", pitch_deg)
     L, P = np.meshgrid(tsr, pitch, indexing="ij")
-    result = solve(geometry, alpha_deg, cl, cd, L, P, **options)
+    prepared = options.pop("rotor", None)
+    if not isinstance(prepared, PreparedRotor):
+        prepared = prepare(geometry, alpha_deg, cl, cd, **options)
+    cp, ct, _ = prepared.coefficients(L, P)
     if refine:
-        best = best_operating_point(geometry, alpha_deg, cl, cd, tsr, pitch, result.cp,
-                                    **options)
+        best = best_operating_point(geometry, alpha_deg, cl, cd, tsr, pitch, cp,
+                                    rotor=prepared)
     else:
-        i, j = np.unravel_index(int(np.argmax(result.cp)), result.cp.shape)
-        best = (float(tsr[i]), float(pitch[j]), float(result.cp[i, j]))
-    return CpSurface(tsr, pitch, result.cp, result.ct, best[0], best[1], best[2],
-                     dict(result.options))
+        i, j = np.unravel_index(int(np.argmax(cp)), cp.shape)
+        best = (float(tsr[i]), float(pitch[j]), float(cp[i, j]))
+    return CpSurface(tsr, pitch, cp, ct, best[0], best[1], best[2], dict(prepared.options))

@@ -75,6 +75,7 @@ def test_numbers_are_the_rotor_layer_called_directly(demo_client, tokens):
     arrays, _ = performance.compute_performance(
         np.array(tables["alpha_deg"]), np.array(tables["cl"]), np.array(tables["cd"]), blade,
         result["recipe"]["params"]["rotor"],
+        prepared_reynolds=[s["reynolds_requested"] for s in tables["reports"]["stations"]],
     )
     for name, values in arrays.items():
         np.testing.assert_array_equal(np.array(result[name], dtype=float), values, err_msg=name)

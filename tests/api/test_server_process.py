@@ -121,7 +121,8 @@ def test_client_gets_rotor_performance_as_arrays(demo_server):
     # verify need the stored result
     with PolarClient(base, token=admin_token) as client:
         result = client.performance("skerry-48")
-        assert result["cp"].shape == (57, 8)  # tip speed ratio 1..15 x pitch -5..30
+        # the default grid: tip speed ratio 1..15 step 0.5 x pitch -5..30 step 5
+        assert result["cp"].shape == (29, 8)
         assert result["normal_force_n_per_m"].shape[1] == 20
         assert result.rated_wind_speed_m_s is not None
         assert set(result.annual_energy) >= {"IEC class I: Rayleigh, mean 10 m/s"}

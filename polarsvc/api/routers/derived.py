@@ -12,7 +12,7 @@ from polarsvc.api import visibility
 from polarsvc.api.deps import Reader, ReadSession
 from polarsvc.api.responses import choose_format, json_response
 from polarsvc.api.routers.polars import FormatQuery
-from polarsvc.api.schemas import ERROR_RESPONSES, TABLE_RESPONSES, HashKey
+from polarsvc.api.schemas import ERROR_RESPONSES, TABLE_RESPONSES, HashKey, RotorPartQuery
 from polarsvc.api.served import served_response
 
 router = APIRouter(tags=["derived tables and lineage"], responses=ERROR_RESPONSES)
@@ -21,10 +21,11 @@ router = APIRouter(tags=["derived tables and lineage"], responses=ERROR_RESPONSE
 @router.get(
     "/derived/{key}", responses=TABLE_RESPONSES,
     summary="A cached derived table by content or recipe hash")
-def get_derived(key: HashKey, request: Request, _: Reader, format: FormatQuery = None):
+def get_derived(key: HashKey, request: Request, _: Reader, format: FormatQuery = None,
+                part: RotorPartQuery = None):
     fmt = choose_format(request, format)
     served = pipeline.stored_table(request.app.state.session_factory, key)
-    return served_response(request, served, fmt)
+    return served_response(request, served, fmt, part)
 
 
 @router.get(

@@ -8,13 +8,20 @@ from typing import Annotated, Any
 from fastapi import APIRouter, Depends, Query, Request
 from pydantic import Field
 
-from polarsvc import pipeline, recipes
+from polarsvc import performance, pipeline, recipes
 from polarsvc.aero.errors import ParameterError
 from polarsvc.api.deps import Reader, SettingsDep
-from polarsvc.api.responses import choose_format, json_response
+from polarsvc.api.responses import arrays_response, choose_format, json_response
 from polarsvc.api.routers.blades import BladeSetQuery
 from polarsvc.api.routers.polars import ApprovedOnlyQuery, FormatQuery, approved_only_setting
-from polarsvc.api.schemas import ERROR_RESPONSES, BladeSetSpec, ComparisonIn
+from polarsvc.api.schemas import (
+    ERROR_RESPONSES,
+    TABLE_RESPONSES,
+    BladeSetSpec,
+    ComparisonIn,
+    ComparisonPartQuery,
+    RotorPartQuery,
+)
 from polarsvc.api.served import cache_policy, served_response
 
 router = APIRouter(tags=["rotor performance"], responses=ERROR_RESPONSES)
@@ -26,10 +33,12 @@ PERFORMANCE_DESCRIPTION = (
     "speed ratio at the fine pitch, the power curve of a variable-speed pitch-regulated "
     "machine (turbine data from the blade definition, overridable here), the spanwise "
     "solution at every wind speed of the curve, and the annual energy for Rayleigh winds "
-    "of the IEC 61400-1 class mean speeds and for the Weibull distributions given. JSON "
-    "and binary carry every array (names and units in reports.arrays); CSV carries one "
-    "part (curve, cp, cp_lambda, stations, energy). A screening check, not a load "
-    "calculation: see rotor_caution and reports.assumptions."
+    "of the IEC 61400-1 class mean speeds and for the Weibull distributions given, and the "
+    "station Reynolds numbers met over the power curve against those the tables were "
+    "prepared for (reports.reynolds, reports.warnings). JSON and binary carry every array "
+    "(names and units in reports.arrays), or one part as columns with `part`; CSV carries "
+    "one part (curve by default; cp, cp_lambda, stations, energy, optimum, reynolds). A "
+    "screening check, not a load calculation: see rotor_caution and reports.assumptions."
 )
 
 
@@ -86,15 +95,12 @@ RotorQuery = Annotated[dict[str, Any], Depends(rotor_query)]
 
 
 @router.get("/blades/{key}/performance", summary="Rotor performance of a blade set",
-            description=PERFORMANCE_DESCRIPTION)
+            description=PERFORMANCE_DESCRIPTION, responses=TABLE_RESPONSES)
 def blade_performance(
     key: str, request: Request, settings: SettingsDep, reader: Reader, options: BladeSetQuery,
     rotor: RotorQuery,
     format: FormatQuery = None,
-    part: Annotated[
-        str, Query(pattern="^(curve|cp|cp_lambda|stations|energy)$",
-                   description="part of the result in the CSV form")
-    ] = "curve",
+    part: RotorPartQuery = None,
     approved_only: ApprovedOnlyQuery = None,
 ):
     fmt = choose_format(request, format)
@@ -136,16 +142,21 @@ def spec_options(spec: BladeSetSpec) -> tuple[dict[str, Any], dict[str, Any]]:
 
 @router.post(
     "/performance/compare",
+    responses=TABLE_RESPONSES,
     summary="Compare the rotor performance of two blade sets (b minus a)",
     description=(
         "Both results are computed (or taken from the cache) as by GET "
         "/blades/{key}/performance and stay retrievable by their hashes. The answer holds "
         "delta Cp along the tip speed ratio, delta power curve, delta annual energy (MWh and "
         "%), thrust and root moments at rated wind speed (each at its own), and what differs "
-        "between the two recipes and their inputs."
+        "between the two recipes and their inputs. JSON by default; CSV and the binary "
+        "forms carry the arrays as parts (`part`: curve, cp_lambda, energy, rated; CSV "
+        "the curve by default, binary every part) with the rest as metadata."
     ),
 )
-def compare(body: ComparisonIn, request: Request, settings: SettingsDep, reader: Reader):
+def compare(body: ComparisonIn, request: Request, settings: SettingsDep, reader: Reader,
+            format: FormatQuery = None, part: ComparisonPartQuery = None):
+    fmt = choose_format(request, format)
     factory = request.app.state.session_factory
     served = []
     for spec in (body.a, body.b):
@@ -155,4 +166,12 @@ def compare(body: ComparisonIn, request: Request, settings: SettingsDep, reader:
             approved_only=approved_only_setting(settings, spec.approved_only),
             policy=cache_policy(settings, reader),
         ))
-    return json_response(pipeline.compare_performance(served[0], served[1]))
+    comparison = pipeline.compare_performance(served[0], served[1])
+    if fmt == "json" and part is None:
+        return json_response(comparison)
+    if part is None and fmt == "csv":
+        part = performance.DEFAULT_CSV_PART
+    arrays = (performance.comparison_arrays(comparison) if part is None
+              else performance.comparison_part(comparison, part))
+    return arrays_response(request, fmt=fmt, content_hash=None, arrays=arrays,
+                           meta=performance.comparison_meta(comparison, part), part=part)
