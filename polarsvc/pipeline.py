@@ -719,7 +719,8 @@ def find_blade(session: Session, key: str) -> BladeDefinition:
 
 
 def _looks_like_hash(key: str) -> bool:
-    return len(key) >= 8 and all(c in "0123456789abcdef" for c in key.lower())
+    """A full hash or a prefix of one: 8 to 64 hexadecimal digits (longer is a name only)."""
+    return 8 <= len(key) <= 64 and all(c in "0123456789abcdef" for c in key.lower())
 
 
 # -- stored derived tables: lookup, lineage, verification --------------------------------

@@ -1,5 +1,10 @@
 """Start `polarsvc serve` as a separate process on a free loopback port (for the tests that
-need the real thing: settings read by the command, a server's event loop under load)."""
+need the real thing: settings read by the command, a server's event loop under load).
+
+Each server runs in its own session, so its process group holds the command and, with
+``--workers N``, uvicorn's supervisor and its worker processes: stopping or killing a server
+signals the whole group and waits until no process of it is left and nothing answers on its
+port (a ``kill -9`` of the supervisor alone would leave the workers serving)."""
 
 from __future__ import annotations
 
@@ -42,22 +47,65 @@ class Server:
     log_path: Path
     token: str | None = None
 
+    @property
+    def port(self) -> int:
+        return int(self.base.rsplit(":", 1)[1])
+
     def log(self) -> str:
         return self.log_path.read_text(encoding="utf-8", errors="replace")
 
     def stop(self) -> None:
+        """SIGTERM (uvicorn's supervisor stops its workers), then SIGKILL to what is left."""
         if self.process.poll() is None:
             self.process.terminate()
-            try:
+            with contextlib.suppress(subprocess.TimeoutExpired):
                 self.process.wait(timeout=20)
-            except subprocess.TimeoutExpired:
-                self.kill()
+        self.kill()
 
     def kill(self) -> None:
-        """SIGKILL: no clean shutdown, as after a power cut of the process."""
-        if self.process.poll() is None:
-            self.process.send_signal(signal.SIGKILL)
-            self.process.wait(timeout=20)
+        """SIGKILL to the whole process group at once: no clean shutdown, as after a power
+        cut of the machine's processes. Returns when none of them is left and the port is
+        closed (raises otherwise)."""
+        with contextlib.suppress(ProcessLookupError):
+            os.killpg(self.process.pid, signal.SIGKILL)
+        self.process.wait(timeout=20)
+        deadline = time.monotonic() + 20
+        while self.group_alive() or self.port_open():
+            if time.monotonic() > deadline:
+                raise RuntimeError(f"server group {self.process.pid} still running "
+                                   f"{self.group_alive()} or port {self.port} open")
+            with contextlib.suppress(ProcessLookupError):
+                os.killpg(self.process.pid, signal.SIGKILL)
+            time.sleep(0.1)
+
+    def group_alive(self) -> list[int]:
+        """Processes of the server's group that are not yet dead (zombies count as dead:
+        they hold no socket and no file)."""
+        return group_members(self.process.pid)
+
+    def port_open(self) -> bool:
+        """Whether something accepts connections on the server's port."""
+        with socket.socket() as sock:
+            sock.settimeout(1)
+            return sock.connect_ex(("127.0.0.1", self.port)) == 0
+
+
+def group_members(pgid: int) -> list[int]:
+    """Ids of the living (not zombie) processes whose process group is ``pgid`` (Linux
+    /proc)."""
+    members = []
+    for entry in Path("/proc").iterdir():
+        if not entry.name.isdigit():
+            continue
+        try:
+            stat = (entry / "stat").read_text()
+        except OSError:
+            continue
+        # pid (comm) state ppid pgrp ...: comm may hold spaces, so split after its ")"
+        fields = stat[stat.rindex(")") + 2:].split()
+        if int(fields[2]) == pgid and fields[0] not in ("Z", "X"):
+            members.append(int(entry.name))
+    return members
 
 
 def start_server(
@@ -78,6 +126,7 @@ def start_server(
             polarsvc_command(*_serve_arguments(args), "--port", str(port),
                              "--log-level", "warning"),
             cwd=cwd, stdout=log, stderr=subprocess.STDOUT, env=environment,
+            start_new_session=True,
         )
     server = Server(base=f"http://127.0.0.1:{port}", process=process, log_path=log_path)
     deadline = time.monotonic() + timeout_s

@@ -24,6 +24,7 @@ from pydantic import (
 from polarsvc import performance
 from polarsvc.formats.binary import ARROW_MEDIA_TYPE, NPZ_MEDIA_TYPE
 from polarsvc.names import NAME_MAX_LENGTH, NAME_PATTERN, TEXT_PATTERN
+from polarsvc.rotor.power import MIN_RATED_POWER_W
 from polarsvc.store.paging import DEFAULT_PAGE_SIZE, MAX_PAGE_SIZE
 
 LimitQuery = Annotated[
@@ -170,7 +171,7 @@ class TurbineIn(StrictModel):
     needs every field but the air density, from the blade or the request)."""
 
     notes: Annotated[str, Field(max_length=4000)] | None = None
-    rated_power_w: PositiveNumber | None = None
+    rated_power_w: number(ge=MIN_RATED_POWER_W) | None = None  # type: ignore[valid-type]
     min_rotor_speed_rpm: number(ge=0) | None = None  # type: ignore[valid-type]
     max_rotor_speed_rpm: PositiveNumber | None = None
     efficiency: number(gt=0, le=1) | None = None  # type: ignore[valid-type]

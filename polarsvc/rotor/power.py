@@ -40,6 +40,10 @@ FEATHER_PITCH_DEG = 90.0
 POWER_TOLERANCE = 1e-9
 """Relative tolerance of the rated-power match above rated (the pitch solve)."""
 
+MIN_RATED_POWER_W = 1.0
+"""Smallest rated power accepted [W] (common practice, no source: no turbine is rated below a
+watt); below it the power scale, wind power over rated power, overflows."""
+
 MODE_MIN_SPEED = "minimum rotor speed"
 MODE_OPTIMUM = "optimum tip speed ratio"
 MODE_MAX_SPEED = "maximum rotor speed"
@@ -65,7 +69,7 @@ class TurbineData:
     Parameters
     ----------
     rated_power_w : float
-        Rated electrical power [W].
+        Rated electrical power [W], at least :data:`MIN_RATED_POWER_W`.
     min_rotor_speed_rpm, max_rotor_speed_rpm : float
         Rotor speed limits [rpm].
     efficiency : float
@@ -85,9 +89,13 @@ class TurbineData:
     rho_kg_m3: float = ISA_DENSITY_KG_M3
 
     def __post_init__(self) -> None:
-        for name in ("rated_power_w", "max_rotor_speed_rpm", "efficiency", "cut_in_m_s",
-                     "cut_out_m_s", "rho_kg_m3"):
+        for name in ("max_rotor_speed_rpm", "efficiency", "cut_in_m_s", "cut_out_m_s",
+                     "rho_kg_m3"):
             object.__setattr__(self, name, _number(name, getattr(self, name)))
+        object.__setattr__(
+            self, "rated_power_w",
+            _number("rated_power_w", self.rated_power_w, low=MIN_RATED_POWER_W, inclusive=True),
+        )
         object.__setattr__(
             self, "min_rotor_speed_rpm",
             _number("min_rotor_speed_rpm", self.min_rotor_speed_rpm, inclusive=True),

@@ -206,3 +206,32 @@ def test_comparison_with_itself_is_zero(demo_client, tokens):
     assert all(row["delta_mwh"] == 0.0 for row in comparison["annual_energy"])
     assert not any(np.abs(comparison["power_curve"]["delta_w"]))
     assert math.isclose(comparison["rated"]["a"]["thrust_n"], comparison["rated"]["b"]["thrust_n"])
+
+
+def test_a_rated_power_below_a_watt_is_refused_in_the_schema_and_by_the_rotor_layer(
+        demo_client, tokens):
+    # The smallest positive double as rated power overflowed the power scale (wind power over
+    # rated power) to infinity and failed inside the pitch solve with a server error. A wind
+    # turbine is rated at watts at the least (common practice, no source): the bound is
+    # published and refused with the parameter named.
+    response = demo_client.get(URL, params={"rated_power_w": 5e-324},
+                               headers=tokens.header("reader"))
+    assert response.status_code == 422
+    assert response.json()["detail"][0]["loc"] == ["query", "rated_power_w"]
+    document = demo_client.get("/api/v1/openapi.json").json()
+    parameters = document["paths"]["/api/v1/blades/{key}/performance"]["get"]["parameters"]
+    rated = next(p for p in parameters if p["name"] == "rated_power_w")["schema"]
+    assert rated["anyOf"][0]["minimum"] == 1
+    turbine = document["components"]["schemas"]["TurbineIn"]["properties"]["rated_power_w"]
+    assert turbine["anyOf"][0]["minimum"] == 1
+
+
+def test_a_blade_key_longer_than_a_hash_is_an_unknown_blade(demo_client, tokens):
+    # 65 and more hexadecimal digits are neither a stored name nor a hash (64 digits, SHA-256):
+    # the blade is not found (404), not a refused hash naming a content_hash field.
+    key = "0" * 199
+    reader = tokens.header("reader")
+    assert demo_client.get(f"/api/v1/blades/{key}", headers=reader).status_code == 404
+    body = {"a": {"blade": key}, "b": {"blade": "0"}}
+    response = demo_client.post("/api/v1/performance/compare", json=body, headers=reader)
+    assert response.status_code == 404, response.text

@@ -5,6 +5,10 @@ database passes its integrity check, every acknowledged upload is stored (and no
 beyond the uploads in flight at the kill), every stored revision still hashes to its content
 hash, and the audit trail holds exactly one ``polar.store`` event per revision.
 
+The server scenarios run with each server as one process and as ``serve --workers 2``
+(uvicorn's supervisor and two worker processes; a ``kill -9`` goes to the whole process
+group, and the test checks that no process of it is left and nothing answers on its port).
+
 Bounded: a few hundred small uploads per test. The figures of the last run are printed and
 recorded in DEVELOPERS.md.
 """
@@ -33,6 +37,21 @@ from tests.serverproc import Server, polarsvc_command, start_server
 
 THREADS = 4
 UPLOADS_PER_THREAD = 25
+
+WORKERS = pytest.mark.parametrize(
+    "workers", [1, 2], ids=["one-process", "workers-2"],
+)
+"""Servers as one process, and as ``serve --workers 2``."""
+
+
+def serve_args(database_url: str, workers: int) -> list[str]:
+    """``serve`` arguments on ``database_url`` with ``workers`` processes."""
+    args = ["--database-url", database_url]
+    return args if workers == 1 else [*args, "--workers", str(workers)]
+
+
+def label(database_url: str, workers: int) -> str:
+    return f"{database_url.split(':')[0]}, {workers} worker{'s' if workers > 1 else ''}"
 
 
 FAMILY = "skua-fault"
@@ -130,22 +149,25 @@ def check_store(database_url: str) -> dict[str, int]:
         engine.dispose()
 
 
-def _servers(tmp_path: Path, database_url: str, count: int) -> list[Server]:
-    servers = []
-    try:
-        for index in range(count):
-            servers.append(start_server(["--database-url", database_url], cwd=tmp_path,
-                                        name=f"server{index}"))
-    except Exception:
+def _servers(tmp_path: Path, database_url: str, count: int, workers: int) -> list[Server]:
+    """``count`` servers on ``database_url``, started side by side (each waits for its health
+    check)."""
+    with ThreadPoolExecutor(count) as pool:
+        starts = [pool.submit(start_server, serve_args(database_url, workers), cwd=tmp_path,
+                              name=f"server{index}") for index in range(count)]
+    servers = [start.result() for start in starts if start.exception() is None]
+    if len(servers) < count:
         for server in servers:
             server.stop()
-        raise
+        raise next(start.exception() for start in starts if start.exception() is not None)
     return servers
 
 
-def test_two_servers_on_one_database_store_every_acknowledged_upload(prepared, tmp_path):
+@WORKERS
+def test_two_servers_on_one_database_store_every_acknowledged_upload(prepared, tmp_path,
+                                                                      workers):
     database_url, tokens = prepared
-    servers = _servers(tmp_path, database_url, 2)
+    servers = _servers(tmp_path, database_url, 2, workers)
     uploads = Uploads(tokens)
     started = time.monotonic()
     try:
@@ -158,7 +180,7 @@ def test_two_servers_on_one_database_store_every_acknowledged_upload(prepared, t
             server.stop()
     elapsed = time.monotonic() - started
     counts = check_store(database_url)
-    print(f"two servers ({database_url.split(':')[0]}): {uploads.attempted} uploads, "
+    print(f"two servers ({label(database_url, workers)}): {uploads.attempted} uploads, "
           f"{len(uploads.acknowledged)} acknowledged, {counts['revisions']} stored, "
           f"{uploads.failed} refused, {elapsed:.1f} s")
     assert uploads.server_errors == 0 and uploads.failed == 0
@@ -166,9 +188,11 @@ def test_two_servers_on_one_database_store_every_acknowledged_upload(prepared, t
     assert counts["hashes"] == uploads.acknowledged
 
 
-def test_kill_9_during_uploads_loses_no_acknowledged_upload(prepared, tmp_path):
+@WORKERS
+def test_kill_9_during_uploads_loses_no_acknowledged_upload(prepared, tmp_path, workers):
     database_url, tokens = prepared
-    server = start_server(["--database-url", database_url], cwd=tmp_path)
+    server = start_server(serve_args(database_url, workers), cwd=tmp_path)
+    started = time.monotonic()
     uploads = Uploads(tokens)
     stop = threading.Event()
     try:
@@ -182,14 +206,18 @@ def test_kill_9_during_uploads_loses_no_acknowledged_upload(prepared, tmp_path):
             stop.set()
     finally:
         server.kill()
+    # the whole process group died with the supervisor: no worker left, the port closed
+    assert server.group_alive() == [] and not server.port_open()
     counts = check_store(database_url)
-    print(f"kill -9 during uploads ({database_url.split(':')[0]}): {uploads.attempted} "
-          f"attempted, {len(uploads.acknowledged)} acknowledged, {counts['revisions']} stored")
+    print(f"kill -9 during uploads ({label(database_url, workers)}): {uploads.attempted} "
+          f"attempted, {len(uploads.acknowledged)} acknowledged, {counts['revisions']} stored, "
+          f"{time.monotonic() - started:.1f} s")
     assert len(uploads.acknowledged) >= 40
     assert uploads.acknowledged <= counts["hashes"]
     # beyond the acknowledged: at most the uploads in flight when the server died
     assert len(counts["hashes"] - uploads.acknowledged) <= THREADS
-    # the server starts again on the same database and takes uploads
+    # the server starts again on the same database and takes uploads (one process: what is
+    # checked is the database left by the kill)
     again = start_server(["--database-url", database_url], cwd=tmp_path, name="restarted")
     try:
         uploads.run([again.base], 5000, 3)
@@ -239,11 +267,13 @@ def test_kill_9_during_an_import_leaves_whole_files_only(prepared, tmp_path):
     assert check_store(database_url)["revisions"] == files
 
 
-def test_online_backup_while_a_server_writes(prepared, tmp_path):
+@WORKERS
+def test_online_backup_while_a_server_writes(prepared, tmp_path, workers):
     database_url, tokens = prepared
     if not database_url.startswith("sqlite"):
         pytest.skip("db backup copies a SQLite file; PostgreSQL has its own tools")
-    server = start_server(["--database-url", database_url], cwd=tmp_path)
+    server = start_server(serve_args(database_url, workers), cwd=tmp_path)
+    started = time.monotonic()
     uploads = Uploads(tokens)
     stop = threading.Event()
     destination = tmp_path / "backup.db"
@@ -269,8 +299,9 @@ def test_online_backup_while_a_server_writes(prepared, tmp_path):
         assert connection.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
     copied = check_store(f"sqlite:///{destination}")
     live = check_store(database_url)
-    print(f"backup during writes: {len(uploads.acknowledged)} acknowledged, "
-          f"{live['revisions']} stored, {copied['revisions']} in the backup")
+    print(f"backup during writes ({label(database_url, workers)}): "
+          f"{len(uploads.acknowledged)} acknowledged, {live['revisions']} stored, "
+          f"{copied['revisions']} in the backup, {time.monotonic() - started:.1f} s")
     assert copied["hashes"] <= live["hashes"]
     assert uploads.acknowledged <= live["hashes"]
 

@@ -149,6 +149,10 @@ def test_mean_power_input_errors():
         ({"min_rotor_speed_rpm": 20.0}, "min_rotor_speed_rpm"),
         ({"cut_in_m_s": 30.0}, "cut_in_m_s"),
         ({"rated_power_w": -1.0}, "rated_power_w"),
+        # below a watt the power scale overflows (common practice, no source: no turbine
+        # is rated below a watt)
+        ({"rated_power_w": 5e-324}, "rated_power_w"),
+        ({"rated_power_w": 0.5}, "rated_power_w"),
         ({"rho_kg_m3": float("nan")}, "rho_kg_m3"),
     ],
 )

@@ -23,6 +23,7 @@ from polarsvc.api.schemas import (
     RotorPartQuery,
 )
 from polarsvc.api.served import cache_policy, served_response
+from polarsvc.rotor.power import MIN_RATED_POWER_W
 
 router = APIRouter(tags=["rotor performance"], responses=ERROR_RESPONSES)
 
@@ -51,7 +52,7 @@ def rotor_query(
     hub_loss: bool = True,
     tangential_induction: bool = True,
     high_thrust: Annotated[bool, Query(description="Buhl's relation above a = 0.4")] = True,
-    rated_power_w: Annotated[float | None, Query(gt=0)] = None,
+    rated_power_w: Annotated[float | None, Query(ge=MIN_RATED_POWER_W)] = None,
     min_rotor_speed_rpm: Annotated[float | None, Query(ge=0, le=1000)] = None,
     max_rotor_speed_rpm: Annotated[float | None, Query(gt=0, le=1000)] = None,
     efficiency: Annotated[float | None, Query(gt=0, le=1)] = None,
