@@ -145,3 +145,45 @@ def test_station_reynolds_by_hand_and_its_refusals() -> None:
     with pytest.raises(ParameterError) as raised:
         station_reynolds([10.0], [1.0], 10.0, 60.0, rho_kg_m3=0.0)
     assert str(raised.value) == "parameter 'rho_kg_m3': must be positive, got 0"
+
+
+def test_grid_limits() -> None:
+    # the step may be 90 deg at most; the span must be a whole number of steps and positive
+    assert resample(_polar([-90.0, 0.0, 90.0]), step_deg=90.0).alpha_deg.tolist() == [
+        -90.0, 0.0, 90.0]
+    with pytest.raises(ParameterError) as coarse:
+        resample(_polar([-90.0, 0.0, 90.0]), step_deg=90.5)
+    assert str(coarse.value) == "parameter 'step_deg': must lie in (0, 90] deg, got 90.5"
+    with pytest.raises(ParameterError) as empty:
+        uniform_grid(1.0, 0.0, 0.0)
+    assert empty.value.parameter == "stop"
+    with pytest.raises(ParameterError) as uneven:
+        uniform_grid(0.7)
+    assert str(uneven.value) == (
+        "parameter 'step_deg': 0.7 deg does not divide the span -180..180 deg")
+    # exactly two multiples of 0.5 deg within 0.1..1.2 deg: 0.5 and 1.0
+    two = resample(_polar([0.1, 0.4, 0.8, 1.2]), step_deg=0.5)
+    assert two.alpha_deg.tolist() == [0.5, 1.0]
+
+
+def test_interpolation_at_a_member_and_on_two_shared_angles() -> None:
+    low = _polar([-2.0, -1.0, 0.0, 1.0, 2.0], reynolds=1e6)
+    high = _polar([-2.0, -1.0, 0.0, 1.0, 2.0], offset=0.2, reynolds=4e6)
+    at_member = interpolate_reynolds([low, high], 1e6)
+    assert at_member.history[-1]["weights"] == {"1000000.0": 1.0}
+    np.testing.assert_array_equal(at_member.cl, low.cl)
+    shared_two = interpolate_reynolds([_polar([-2.0, 0.0, 2.0], reynolds=1e6),
+                                       _polar([0.0, 2.0, 4.0], reynolds=4e6)], 2e6)
+    assert shared_two.alpha_deg.tolist() == [0.0, 2.0]
+    thin = _polar([-2.0, 0.0, 2.0], thickness=0.2)
+    thick = _polar([-2.0, 0.0, 2.0], thickness=0.3)
+    record = dict(interpolate_thickness([thick, thin], 0.25).history[-1])
+    assert (record["step"], record["members"], record["used"]) == (
+        "interpolate_thickness", [0.2, 0.3], 0.25)
+    assert interpolate_thickness([thick, thin], 0.25).reynolds is None
+    with pytest.raises(ParameterError) as mixed:
+        interpolate_thickness([thin, _polar([-2.0, 0.0, 2.0], thickness=0.3, surface="rough")],
+                              0.25)
+    assert str(mixed.value) == "parameter 'polars': mix surface conditions ['clean', 'rough']"
+    with pytest.raises(InsufficientDataError, match=r"^no polars given$"):
+        interpolate_reynolds([], 2e6)
