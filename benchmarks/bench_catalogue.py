@@ -66,9 +66,13 @@ def requests_for(client: httpx.Client) -> dict[str, str]:
         "GET /api/v1/polars?surface&review_state": (
             "/api/v1/polars?surface=rough&review_state=approved"),
         "GET /api/v1/airfoils": "/api/v1/airfoils",
+        # the default page holds 20 airfoils at 1k polars and 100 at 50k: the same length
+        # at both sizes shows the cost of the size alone
+        "GET /api/v1/airfoils?limit=20": "/api/v1/airfoils?limit=20",
         "GET /api/v1/airfoils?family=": f"/api/v1/airfoils?family={family}",
         "GET /api/v1/airfoils/{name} (50 revisions)": f"/api/v1/airfoils/{airfoil['name']}",
         "GET /api/v1/families": "/api/v1/families",
+        "GET /api/v1/families?limit=2": "/api/v1/families?limit=2",
         "GET /api/v1/blades": "/api/v1/blades",
         "GET /api/v1/audit": "/api/v1/audit?limit=100",
         "page /": "/",

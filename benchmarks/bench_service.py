@@ -111,7 +111,9 @@ def misses(factory, blades: dict[int, dict], repeats: int) -> dict[int, tuple[li
     results: dict[int, tuple[list, list]] = {n: ([], []) for n in blades}
     for index in range(repeats):
         for count, blade in blades.items():
-            options = {"wind_speed_m_s": 10.0 + 1e-6 * index}  # a new recipe: a miss
+            # a new recipe, hence a miss: operating points are rounded to 5 significant
+            # digits before they enter a recipe (PARAMETER_PRECISION), so steps of 0.01 m/s
+            options = {"wind_speed_m_s": 10.0 + 0.01 * index}
             start = time.perf_counter()
             served = pipeline.blade_set(factory, blade_key=blade["name"], options=options,
                                         approved_only=False)

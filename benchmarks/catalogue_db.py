@@ -23,6 +23,7 @@ import numpy as np
 from sqlalchemy import insert
 
 from polarsvc.aero import Polar
+from polarsvc.aero.quality import table_flags
 from polarsvc.hashing import canonical_array_bytes, canonical_json, polar_content_hash
 from polarsvc.store.db import (
     make_engine,
@@ -34,7 +35,7 @@ from polarsvc.store.models import Airfoil, AuditEvent, Family, PolarRevision
 
 AIRFOILS_PER_FAMILY = 10
 POLARS_PER_AIRFOIL = 50
-BUILDER_VERSION = 1
+BUILDER_VERSION = 2
 ALPHA_DEG = np.round(np.arange(-10.0, 20.0001, 0.4), 10)  # 76 angles
 
 
@@ -85,6 +86,7 @@ def build_catalogue(path: Path, *, polars: int) -> Path:
         session.execute(insert(Airfoil), airfoil_rows)
         revision_id = 0
         revisions, events = [], []
+        flags_of: dict[tuple[float, float, bool], str] = {}
         for airfoil in airfoil_rows:
             for rough in (False, True):
                 for reynolds in reynolds_values:
@@ -96,6 +98,10 @@ def build_catalogue(path: Path, *, polars: int) -> Path:
                                   assume_degrees=True)
                     content_hash = polar_content_hash(
                         polar, airfoil_name=airfoil["name"], provenance=provenance)
+                    key = (airfoil["thickness"], float(reynolds), rough)
+                    if key not in flags_of:
+                        flags_of[key] = canonical_json(
+                            [f.as_dict() for f in table_flags(polar)]).decode("utf-8")
                     revisions.append({
                         "id": revision_id, "content_hash": content_hash,
                         "airfoil_id": airfoil["id"], "reynolds": float(reynolds), "mach": 0.0,
@@ -107,6 +113,7 @@ def build_catalogue(path: Path, *, polars: int) -> Path:
                         **provenance, "supersedes_id": None,
                         "review_state": "approved" if revision_id % 7 == 0 else "draft",
                         "review_reason": None, "replaced_by_id": None,
+                        "quality_flags": flags_of[key], "quality_override": None,
                         "created_at": now, "created_by": "benchmark"})
                     events.append({
                         "occurred_at": now, "actor_name": "benchmark", "actor_role": "curator",

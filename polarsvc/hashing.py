@@ -100,7 +100,6 @@ __all__ = [
 _CANONICAL_NAN_BITS = np.uint64(0x7FF8000000000000)
 _ABS_MASK = np.uint64(0x7FFFFFFFFFFFFFFF)
 _EXPONENT_MASK = np.uint64(0x7FF0000000000000)
-_MANTISSA_MASK = np.uint64(0x000FFFFFFFFFFFFF)
 _LITTLE_F8 = np.dtype("<f8")
 
 
@@ -117,13 +116,20 @@ def canonical_array_bytes(values: ArrayLike) -> bytes:
     bytes
         ``8 * size`` bytes.
     """
-    array = np.array(values, dtype=np.float64, copy=True, order="C")
-    # work on the bit patterns (no float arithmetic, so signalling NaNs raise nothing)
-    bits = array.reshape(-1).view(np.uint64)
-    bits[(bits & _ABS_MASK) == 0] = 0  # -0.0 -> +0.0
-    is_nan = ((bits & _EXPONENT_MASK) == _EXPONENT_MASK) & ((bits & _MANTISSA_MASK) != 0)
-    bits[is_nan] = _CANONICAL_NAN_BITS
-    return bits.view(np.float64).astype(_LITTLE_F8, copy=False).tobytes()
+    array = np.array(values, dtype=_LITTLE_F8, copy=True, order="C")
+    _canonicalise(array.reshape(-1))
+    return array.tobytes()
+
+
+def _canonicalise(values: NDArray[np.float64]) -> None:
+    """Rewrite a one-dimensional little-endian float64 array in place into its canonical
+    values: -0.0 as +0.0, every NaN as the quiet NaN ``0x7FF8000000000000``. It works on
+    the bit patterns (no float arithmetic, so signalling NaNs raise nothing): with the sign
+    bit cleared, zero is 0 and a NaN is anything above the infinity pattern."""
+    bits = values.view("<u8")
+    magnitude = bits & _ABS_MASK
+    np.copyto(bits, 0, where=magnitude == 0)
+    np.copyto(bits, _CANONICAL_NAN_BITS, where=magnitude > _EXPONENT_MASK)
 
 
 def decode_array_bytes(data: bytes, shape: tuple[int, ...] | None = None) -> NDArray[np.float64]:
@@ -152,9 +158,32 @@ def decode_array_bytes(data: bytes, shape: tuple[int, ...] | None = None) -> NDA
     return array
 
 
-def _digest_of(shape: tuple[int, ...], data: bytes) -> str:
-    header = canonical_json({"dtype": "float64-le", "shape": list(shape)})
-    return hashlib.sha256(header + b"\n" + data).hexdigest()
+def _digest_of(shape: tuple[int, ...], data: Any) -> str:
+    """The array digest of canonical bytes ``data`` (bytes or a buffer; hashed in place)."""
+    digest = hashlib.sha256(canonical_json({"dtype": "float64-le", "shape": list(shape)}))
+    digest.update(b"\n")
+    digest.update(data)
+    return digest.hexdigest()
+
+
+def _canonical_arrays(arrays: list[NDArray[np.float64]]) -> tuple[list[str], bytearray]:
+    """The array digest of each array and the canonical bytes of all of them, in order.
+
+    Each value is converted and canonicalised once, straight into the one buffer that is
+    returned, and hashed in place: a multi-megabyte table costs one allocation and one
+    pass of SHA-256, no further copies."""
+    sizes = [int(a.size) for a in arrays]
+    payload = bytearray(8 * sum(sizes))
+    buffer = np.frombuffer(payload, dtype=_LITTLE_F8)
+    digests = []
+    start = 0
+    for array, size in zip(arrays, sizes, strict=True):
+        part = buffer[start:start + size]
+        part[...] = array.reshape(-1)
+        _canonicalise(part)
+        digests.append(_digest_of(array.shape, memoryview(part).cast("B")))
+        start += size
+    return digests, payload
 
 
 def array_digest(values: ArrayLike) -> str:
@@ -308,9 +337,10 @@ def recipe_hash(recipe: Mapping[str, Any]) -> str:
     return _sha256_json({"format": "polarsvc.recipe.v1", "recipe": recipe})
 
 
-def canonical_table(alpha_deg: ArrayLike, *columns: ArrayLike) -> tuple[str, list[bytes]]:
-    """The content hash of a derived table and the canonical bytes of the angle column and of
-    each coefficient array, in order (each converted once, for hashing and storing alike).
+def canonical_table(alpha_deg: ArrayLike, *columns: ArrayLike) -> tuple[str, bytearray]:
+    """The content hash of a derived table and its payload: the canonical bytes of the
+    angle column followed by those of each coefficient array, in order (each value
+    converted once, for hashing and storing alike; a bytearray, stored as it is).
 
     Parameters
     ----------
@@ -327,24 +357,19 @@ def canonical_table(alpha_deg: ArrayLike, *columns: ArrayLike) -> tuple[str, lis
     alpha = np.asarray(alpha_deg, dtype=np.float64)
     if alpha.ndim != 1:
         raise ValueError(f"alpha_deg: expected one dimension, got shape {alpha.shape}")
-    parts = [canonical_array_bytes(alpha)]
-    digests = []
+    arrays = [alpha]
     for index, column in enumerate(columns):
         array = np.asarray(column, dtype=np.float64)
         if array.ndim == 0 or array.shape[-1] != alpha.size:
             raise ValueError(
                 f"column {index}: shape {array.shape} does not end with {alpha.size} angles"
             )
-        parts.append(canonical_array_bytes(array))
-        digests.append(_digest_of(array.shape, parts[-1]))
+        arrays.append(array)
+    digests, payload = _canonical_arrays(arrays)
     content_hash = _sha256_json(
-        {
-            "format": "polarsvc.table.v1",
-            "alpha_deg": _digest_of(alpha.shape, parts[0]),
-            "columns": digests,
-        }
+        {"format": "polarsvc.table.v1", "alpha_deg": digests[0], "columns": digests[1:]}
     )
-    return content_hash, parts
+    return content_hash, payload
 
 
 def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
@@ -353,20 +378,19 @@ def table_content_hash(alpha_deg: ArrayLike, *columns: ArrayLike) -> str:
     return canonical_table(alpha_deg, *columns)[0]
 
 
-def canonical_result(arrays: Mapping[str, ArrayLike]) -> tuple[str, list[bytes]]:
+def canonical_result(arrays: Mapping[str, ArrayLike]) -> tuple[str, bytearray]:
     """The content hash of a result made of named arrays of any shapes (module docstring)
-    and the canonical bytes of each array, in order."""
+    and its payload: the canonical bytes of each array, in order."""
     if not arrays:
         raise ValueError("a result needs at least one array")
-    parts = []
-    named = []
-    for name, values in arrays.items():
+    for name in arrays:
         if not isinstance(name, str) or not name:
             raise ValueError(f"array names must be non-empty strings, got {name!r}")
-        array = np.asarray(values, dtype=np.float64)
-        parts.append(canonical_array_bytes(array))
-        named.append([name, _digest_of(array.shape, parts[-1])])
-    return _sha256_json({"format": "polarsvc.result.v1", "arrays": named}), parts
+    digests, payload = _canonical_arrays(
+        [np.asarray(values, dtype=np.float64) for values in arrays.values()]
+    )
+    named = [[name, digest] for name, digest in zip(arrays, digests, strict=True)]
+    return _sha256_json({"format": "polarsvc.result.v1", "arrays": named}), payload
 
 
 def result_content_hash(arrays: Mapping[str, ArrayLike]) -> str:

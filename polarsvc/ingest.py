@@ -25,7 +25,7 @@ from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.audit import Actor
-from polarsvc.store.db import session_scope
+from polarsvc.store.db import refresh_planner_statistics, session_scope
 from polarsvc.store.errors import NotFound, StoreError
 from polarsvc.store.models import Airfoil, PolarRevision
 
@@ -395,7 +395,9 @@ def import_files(
     override_quality: str | None = None,
 ) -> Iterator[FileReport]:
     """Import files one transaction each, yielding a report per file as it finishes
-    (the caller shows progress). A refused file leaves the database unchanged."""
+    (the caller shows progress). A refused file leaves the database unchanged. When every
+    file is done the planner's statistics are refreshed
+    (:func:`polarsvc.store.db.refresh_planner_statistics`)."""
     for path in paths:
         try:
             outcomes = store_upload(
@@ -410,6 +412,7 @@ def import_files(
             path=path, stored=created, identical=len(outcomes) - created, error=None,
             flags=tuple(f for o in outcomes for f in o.flags),
         )
+    refresh_planner_statistics(factory)
 
 
 def load_demo(factory: sessionmaker[Session], seed_dir: Path, *, actor: Actor) -> dict[str, int]:

@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 import orjson
-from sqlalchemy import func, select
+from sqlalchemy import func, select, text
 from sqlalchemy.orm import Session, defer, sessionmaker
 
 from polarsvc import describe, performance, recipes
@@ -31,6 +31,7 @@ from polarsvc.store.audit import Actor
 from polarsvc.store.db import session_scope
 from polarsvc.store.errors import NotFound
 from polarsvc.store.models import (
+    INPUT_WRITES,
     Airfoil,
     AuditEvent,
     BladeDefinition,
@@ -512,9 +513,12 @@ write could go unseen by a cached resolution."""
 
 
 def write_generation(session: Session) -> int:
-    """The id of the newest audit event: every write records one, so while it is unchanged
-    no revision, review state, blade or family has changed."""
-    return session.scalar(select(func.max(AuditEvent.id))) or 0
+    """The id of the newest audit event of a write other than a derived-table cache write:
+    every write records one, so while it is unchanged no revision, review state, blade or
+    family has changed (a cache write changes none of them). Read from the partial index
+    ``ix_audit_event_input_writes``."""
+    statement = select(func.max(AuditEvent.id)).where(text(INPUT_WRITES))
+    return session.scalar(statement) or 0
 
 
 def _resolve(
@@ -614,17 +618,12 @@ def blade_set(
     """
 
     def resolve(session: Session):
-        blade = find_blade(session, blade_key)
-        definition = blade_store.blade_definition(blade)
-        params = recipes.blade_set_params(definition, **options)
-        members = select_family_members(
-            session, family=definition["family"], surface=params["surface"],
-            approved_only=approved_only,
+        blade_hash, definition, inputs = _blade_inputs(
+            session, factory, blade_key, options, approved_only
         )
-        inputs = resolve_inputs(members, blade)
+        params = recipes.blade_set_params(definition, **options)
         recipe = recipes.make_recipe(
-            "blade-set", revisions=inputs.revision_hashes, params=params,
-            blade=blade.content_hash,
+            "blade-set", revisions=inputs.revision_hashes, params=params, blade=blade_hash,
         )
         return recipe, inputs, {"family": definition["family"]}
 
@@ -632,6 +631,39 @@ def blade_set(
         factory, _request_key("blade-set", blade_key, dict(options), approved_only), resolve,
         policy,
     )
+
+
+BLADE_INPUTS: LruCache[tuple[str, dict[str, Any], ResolvedInputs]] = LruCache(
+    max_entries=256, max_size=RESOLUTIONS_MAX_BYTES // 2,
+    size_of=lambda found: _resolution_size(({}, found[2], {})),
+)
+"""A blade's inputs (its hash, definition, and the family members its tables draw on) by
+blade key, surface and approved-only choice, write generation and time bucket (as
+:data:`RESOLUTIONS`): blade sets of one blade at other operating points or settings share
+them. Bounded in bytes (estimated)."""
+
+
+def _blade_inputs(
+    session: Session, factory: sessionmaker[Session], blade_key: str,
+    options: Mapping[str, Any], approved_only: bool,
+) -> tuple[str, dict[str, Any], ResolvedInputs]:
+    """The blade's content hash, definition and resolved inputs for a blade set (from
+    :data:`BLADE_INPUTS` when resolved since the last write). The members depend on the
+    options through the surface alone."""
+    bucket = int(time.monotonic() // RESOLUTION_LIFETIME_S)
+    key = (_database_key(factory), write_generation(session), bucket, blade_key,
+           options.get("surface"), approved_only)
+    found = BLADE_INPUTS.peek(key)
+    if found is None:
+        blade = find_blade(session, blade_key)
+        definition = blade_store.blade_definition(blade)
+        surface = recipes.blade_set_params(definition, **options)["surface"]
+        members = select_family_members(
+            session, family=definition["family"], surface=surface, approved_only=approved_only,
+        )
+        found = (blade.content_hash, definition, resolve_inputs(members, blade))
+        BLADE_INPUTS.put(key, found)
+    return found
 
 
 def rotor_performance(

@@ -17,6 +17,7 @@ from typing import Annotated
 
 from fastapi import Depends, HTTPException, Request
 from sqlalchemy.orm import Session
+from starlette.concurrency import run_in_threadpool
 
 from polarsvc.api.settings import Settings
 from polarsvc.names import find_control
@@ -134,6 +135,20 @@ def require_role(minimum: str, *, cookie: bool = False):
     return dependency
 
 
-Reader = Annotated[Principal, Depends(require_role("reader"))]
-Curator = Annotated[Principal, Depends(require_role("curator"))]
-Admin = Annotated[Principal, Depends(require_role("admin"))]
+def api_role(minimum: str):
+    """The API's form of :func:`require_role` (bearer tokens only): a request without an
+    ``Authorization`` header needs no database, so it is answered on the event loop; one
+    with a token is checked in a worker thread (the token lookup reads the database)."""
+    check = require_role(minimum)
+
+    async def dependency(request: Request) -> Principal:
+        if "authorization" not in request.headers:
+            return check(request)
+        return await run_in_threadpool(check, request)
+
+    return dependency
+
+
+Reader = Annotated[Principal, Depends(api_role("reader"))]
+Curator = Annotated[Principal, Depends(api_role("curator"))]
+Admin = Annotated[Principal, Depends(api_role("admin"))]

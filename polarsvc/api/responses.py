@@ -70,7 +70,12 @@ def binary_format() -> str:
 def page_response(
     request: Request, items: list[Any], *, next_cursor: str | None, total: int | None
 ) -> Response:
-    """A JSON list (one page of a listing) with ``X-Total-Count`` (all matching items) and,
+    """A JSON list (one page of a listing) with the headers of :func:`page_headers`."""
+    return json_response(items, headers=page_headers(request, next_cursor, total))
+
+
+def page_headers(request: Request, next_cursor: str | None, total: int | None) -> dict[str, str]:
+    """The headers of one page of a listing: ``X-Total-Count`` (all matching items) and,
     unless this is the last page, ``Link: <url>; rel="next"`` (RFC 8288): the same request
     with ``after`` set to the next page's cursor."""
     headers: dict[str, str] = {}
@@ -78,7 +83,7 @@ def page_response(
         headers["X-Total-Count"] = str(total)
     if next_cursor is not None:
         headers["Link"] = f'<{request.url.include_query_params(after=next_cursor)}>; rel="next"'
-    return json_response(items, headers=headers)
+    return headers
 
 
 def choose_format(request: Request, explicit: str | None) -> str:

@@ -29,7 +29,7 @@ from polarsvc.store import airfoils as airfoil_store
 from polarsvc.store import blades as blade_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.audit import Actor, record_event, replaying_history
-from polarsvc.store.db import session_scope
+from polarsvc.store.db import refresh_planner_statistics, session_scope
 from polarsvc.store.errors import StoreError
 from polarsvc.store.models import (
     NAME_LENGTH,
@@ -303,4 +303,5 @@ def import_bundle(factory: sessionmaker[Session], source: Path, *, actor: Actor)
         )
         _restore(session, content, actor)
         _add_history(session, content, manifest.files_sha256, import_event)
+    refresh_planner_statistics(factory)
     return report

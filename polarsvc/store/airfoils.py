@@ -292,7 +292,8 @@ def page_airfoils(
     if extra_filter is not None:
         conditions.append(extra_filter)
     statement = select(Airfoil, Airfoil.coordinates.is_not(None)).options(
-        defer(Airfoil.coordinates), selectinload(Airfoil.family).load_only(Family.name)
+        defer(Airfoil.coordinates), selectinload(Airfoil.family).load_only(Family.name),
+        selectinload(Airfoil.aliases).load_only(AirfoilAlias.name),
     ).where(*conditions)
     if after is not None:
         thickness, name = decode_cursor(after, (float, str))

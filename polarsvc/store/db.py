@@ -55,6 +55,7 @@ __all__ = [
     "make_engine",
     "make_session_factory",
     "online_backup",
+    "refresh_planner_statistics",
     "session_scope",
     "upgrade_database",
 ]
@@ -235,6 +236,9 @@ def upgrade_database(engine: Engine, revision: str = "head") -> None:
         If the database is at a revision these migrations do not know (nothing is changed).
     IntegrityProblem
         If the SQLite foreign-key check finds violations after the upgrade.
+
+    On SQLite the planner's statistics are refreshed afterwards
+    (:func:`refresh_planner_statistics`).
     """
     is_sqlite = engine.dialect.name == "sqlite"
     with engine.connect() as connection:
@@ -260,6 +264,32 @@ def upgrade_database(engine: Engine, revision: str = "head") -> None:
         finally:
             if raw is not None:
                 raw.execute("PRAGMA foreign_keys=ON")
+    refresh_planner_statistics(engine)
+
+
+SQLITE_ANALYSIS_LIMIT = 1000
+"""Rows ANALYZE reads per index on SQLite (``PRAGMA analysis_limit``): approximate
+statistics in milliseconds (about 2 ms for the 50 000-revision benchmark catalogue, against
+36 ms for an exact pass)."""
+
+
+def refresh_planner_statistics(bind: Engine | sessionmaker[Session]) -> None:
+    """Gather the query planner's statistics of a SQLite database (``ANALYZE``, bounded by
+    :data:`SQLITE_ANALYSIS_LIMIT`; it fills ``sqlite_stat1``).
+
+    SQLite keeps no statistics by itself; without them its planner guesses the sizes of
+    tables and how selective each index is. Called after migrations (hence when a server
+    or a command starts) and after bulk imports. PostgreSQL gathers its own (autovacuum's
+    analyse), so nothing is done there.
+    """
+    engine = bind if isinstance(bind, Engine) else bind.kw["bind"]
+    if engine.dialect.name != "sqlite":
+        return
+    with engine.connect() as connection:
+        connection = connection.execution_options(**{WRITE_OPTION: True})
+        with connection.begin():
+            connection.exec_driver_sql(f"PRAGMA analysis_limit={SQLITE_ANALYSIS_LIMIT}")
+            connection.exec_driver_sql("ANALYZE")
 
 
 def _sqlite_path(url: str | URL) -> Path:

@@ -2,10 +2,11 @@
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -33,11 +34,20 @@ from polarsvc.store._lookup import (
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import AmbiguousKey, IntegrityProblem, InvalidValue, NotFound
 from polarsvc.store.models import (
+    CACHE_WRITE_ACTION,
     DERIVED_KINDS,
     BladeDefinition,
     DerivedInput,
     DerivedTable,
     PolarRevision,
+)
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    take_page,
 )
 
 
@@ -127,7 +137,7 @@ def put_derived(
     key = recipe_hash(recipe)
     if alpha_deg is None:
         try:
-            content_hash, parts = canonical_result(columns)
+            content_hash, payload = canonical_result(columns)
         except ValueError as exc:
             raise InvalidValue("columns", str(exc)) from None
         layout: dict[str, Any] = {
@@ -135,7 +145,7 @@ def put_derived(
         }
     else:
         alpha, arrays = _stack(alpha_deg, columns)
-        content_hash, parts = canonical_table(alpha, *arrays)
+        content_hash, payload = canonical_table(alpha, *arrays)
         layout = {"columns": list(columns), "alpha_size": int(alpha.size),
                   "shape": list(arrays[0].shape)}
     existing = get_derived(session, recipe_hash=key)
@@ -155,7 +165,7 @@ def put_derived(
         kind=kind,
         recipe=canonical_json(recipe).decode("utf-8"),
         content_hash=content_hash,
-        payload=b"".join(parts),
+        payload=payload,
         payload_shape=canonical_json(layout).decode("utf-8"),
         blade_id=blade_id,
         reports=None if reports is None else _reports_text(reports),
@@ -177,7 +187,7 @@ def put_derived(
     record_event(
         session,
         actor=actor,
-        action="derived.store",
+        action=CACHE_WRITE_ACTION,
         object_kind="derived_table",
         object_key=key,
         after_hash=content_hash,
@@ -328,3 +338,54 @@ def derived_using_revision(session: Session, *, revision_id: int) -> Sequence[De
         .order_by(DerivedTable.id)
     )
     return session.scalars(statement).all()
+
+
+@dataclass(frozen=True)
+class DerivedUse:
+    """A cached table seen from one of its inputs (reverse lineage): its identity, never
+    its payload."""
+
+    id: int
+    kind: str
+    recipe_hash: str
+    content_hash: str
+    blade: str | None
+    created_at: dt.datetime
+
+
+def page_derived_using_revision(
+    session: Session, *, revision_id: int, after: str | None = None,
+    limit: int = DEFAULT_PAGE_SIZE,
+) -> Page[DerivedUse]:
+    """One page of the reverse lineage of a revision, oldest first (keyset pagination on
+    the cache row id, :mod:`polarsvc.store.paging`); payloads, recipes and reports are not
+    read. The total is counted.
+
+    Raises
+    ------
+    InvalidValue
+        On a bad cursor or limit.
+    """
+    limit = check_limit(limit)
+    statement = (
+        select(
+            DerivedTable.id, DerivedTable.kind, DerivedTable.recipe_hash,
+            DerivedTable.content_hash, BladeDefinition.name, DerivedTable.created_at,
+        )
+        .join(DerivedInput, DerivedInput.derived_id == DerivedTable.id)
+        .outerjoin(BladeDefinition, BladeDefinition.id == DerivedTable.blade_id)
+        .where(DerivedInput.polar_id == revision_id)
+    )
+    if after is not None:
+        (after_id,) = decode_cursor(after, (int,))
+        statement = statement.where(DerivedTable.id > after_id)
+    rows = [
+        DerivedUse(*row)
+        for row in session.execute(statement.order_by(DerivedTable.id).limit(limit + 1))
+    ]
+    total = count_rows(
+        session,
+        select(func.count()).select_from(DerivedInput).where(DerivedInput.polar_id == revision_id),
+        ("used-by", revision_id),
+    )
+    return take_page(rows, limit, lambda use: (use.id,), total)

@@ -25,6 +25,7 @@ from sqlalchemy import (
     String,
     Text,
     event,
+    text,
 )
 from sqlalchemy.engine import Dialect
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
@@ -46,6 +47,11 @@ DERIVED_KINDS: tuple[str, ...] = (
     "extended", "augmented", "resampled", "blended", "blade-set", "rotor"
 )
 TOKEN_ROLES: tuple[str, ...] = ("reader", "curator", "admin")
+
+CACHE_WRITE_ACTION = "derived.store"
+"""The audit action of a derived-table cache write (it changes no input of any table)."""
+INPUT_WRITES = f"action != '{CACHE_WRITE_ACTION}'"
+"""SQL condition: an audit event of a write that can change inputs (every other write)."""
 
 HASH_LENGTH = 64
 NAME_LENGTH = 200
@@ -275,6 +281,13 @@ class AuditEvent(Base):
     """One write, recorded in the same transaction as the write. Append-only."""
 
     __tablename__ = "audit_event"
+    __table_args__ = (
+        # the writes that can change what a request resolves to (all but cache writes)
+        Index(
+            "ix_audit_event_input_writes", "id",
+            sqlite_where=text(INPUT_WRITES), postgresql_where=text(INPUT_WRITES),
+        ),
+    )
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     occurred_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utc_now, index=True)

@@ -8,8 +8,11 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from sqlalchemy import func, select
+from sqlalchemy import Integer, bindparam, func, select
+from sqlalchemy.engine import Connection
+from sqlalchemy.ext.compiler import compiles
 from sqlalchemy.orm import Session, aliased, contains_eager, defer, selectinload
+from sqlalchemy.sql.functions import FunctionElement
 
 from polarsvc.aero.polar import Polar
 from polarsvc.aero.quality import table_flags
@@ -22,11 +25,13 @@ from polarsvc.hashing import (
 )
 from polarsvc.lru import LruCache
 from polarsvc.store._lookup import (
+    HASH_DIGITS,
     check_choice,
     check_text,
     find_by_hash,
     hash_condition,
     insert_or_winner,
+    normalise_hash_key,
 )
 from polarsvc.store.airfoils import get_airfoil
 from polarsvc.store.audit import Actor, record_event
@@ -316,24 +321,41 @@ def revision_table(revision: PolarRevision) -> dict[str, Any]:
     return REVISION_TABLES.get(revision.content_hash, load)
 
 
-def revision_brief(session: Session, key: str) -> tuple[str, str, str]:
+_BRIEF_COLUMNS = (PolarRevision.content_hash, Airfoil.name, PolarRevision.review_state)
+_BRIEF_BY_FULL_HASH = (
+    select(*_BRIEF_COLUMNS)
+    .join(Airfoil, Airfoil.id == PolarRevision.airfoil_id)
+    .where(PolarRevision.content_hash == bindparam("content_hash"))
+)
+"""Built once: a full hash is answered by a compiled, cached statement on a connection,
+without the ORM's per-statement work (about 0.2 ms of CPU against 1.1 ms)."""
+
+
+def revision_brief(session: Session | Connection, key: str) -> tuple[str, str, str]:
     """``(content_hash, airfoil name, review_state)`` of the revision named by ``key`` (a
-    full hash or a unique prefix), read without the revision's table.
+    full hash or a unique prefix), read without the revision's table, through a session or
+    straight on a connection (a full hash then costs one compiled, cached statement).
 
     Raises
     ------
     NotFound, AmbiguousKey, InvalidValue
         As :func:`get_revision`.
     """
-    statement = (
-        select(PolarRevision.content_hash, Airfoil.name, PolarRevision.review_state)
-        .join(Airfoil, Airfoil.id == PolarRevision.airfoil_id)
-        .where(hash_condition(PolarRevision.content_hash, key))
-        .limit(2)
-    )
-    rows = session.execute(statement).all()
+    connection = session.connection() if isinstance(session, Session) else session
+    normalised = normalise_hash_key(key)
+    if len(normalised) == HASH_DIGITS:
+        rows = connection.execute(_BRIEF_BY_FULL_HASH, {"content_hash": normalised}).all()
+    else:
+        statement = (
+            select(*_BRIEF_COLUMNS)
+            .join(Airfoil, Airfoil.id == PolarRevision.airfoil_id)
+            .where(hash_condition(PolarRevision.content_hash, normalised))
+            .limit(2)
+        )
+        rows = connection.execute(statement).all()
     if len(rows) != 1:
-        get_revision(session, key)  # raises the error that names the problem
+        with Session(bind=connection) as lookup:
+            get_revision(lookup, key)  # raises the error that names the problem
     content_hash, airfoil_name, review_state = rows[0]
     return content_hash, airfoil_name, review_state
 
@@ -549,6 +571,70 @@ def _summary_of(row: Any) -> RevisionSummary:
     )
 
 
+class not_looked_up(FunctionElement[int]):  # noqa: N801 (an SQL construct, named as one)
+    """A column the planner may read but not look rows up by: ``+column`` on SQLite (the
+    unary plus disqualifies the term from index use; SQLite documentation, "The SQLite
+    Query Optimizer Overview", section "Disqualifying WHERE clause terms using unary-'+'"),
+    the column itself elsewhere."""
+
+    inherit_cache = True
+    type = Integer()
+
+
+@compiles(not_looked_up)
+def _column_itself(element: not_looked_up, compiler: Any, **kw: Any) -> str:
+    return compiler.process(next(iter(element.clauses)), **kw)
+
+
+@compiles(not_looked_up, "sqlite")
+def _unary_plus(element: not_looked_up, compiler: Any, **kw: Any) -> str:
+    return "+" + compiler.process(next(iter(element.clauses)), **kw)
+
+
+def _listing_from(statement: Any) -> Any:
+    """``statement`` over revisions joined to their airfoils, as the listing reads them.
+
+    On SQLite the join names the airfoil's id through :class:`not_looked_up`: a revision
+    cannot find its airfoil by primary key, so the planner has one good plan left, whatever
+    statistics it has (none at all on a database never analysed): airfoils in name order
+    (the unique name index), and for each its revisions in id order from
+    ``ix_polar_revision_listing`` (which holds every filtered column). A page stops after
+    ``limit + 1`` rows. Without it SQLite's planner, given filters on two revision columns
+    and no statistics, scanned the whole listing index and sorted the matching rows (16x
+    slower at 50 000 revisions than at 1000).
+    """
+    return statement.join(Airfoil, not_looked_up(Airfoil.id) == PolarRevision.airfoil_id)
+
+
+def revision_page_keys(
+    *,
+    airfoil: str | None = None,
+    family: str | None = None,
+    reynolds: float | None = None,
+    surface: str | None = None,
+    review_state: str | None = None,
+    source_kind: str | None = None,
+    after: str | None = None,
+    limit: int = DEFAULT_PAGE_SIZE,
+) -> Any:
+    """The query of the ids of one page of :func:`page_revisions` (``limit + 1`` ids, in
+    keyset order: airfoil name, then id).
+
+    Raises
+    ------
+    InvalidValue
+        On a bad cursor, review state or source kind.
+    """
+    keys = _revision_filters(
+        _listing_from(select(PolarRevision.id)), airfoil=airfoil, family=family,
+        reynolds=reynolds, surface=surface, review_state=review_state, source_kind=source_kind,
+    )
+    if after is not None:
+        name, revision_id = decode_cursor(after, (str, int))
+        keys = keys.where(keyset_after((Airfoil.name, PolarRevision.id), (name, revision_id)))
+    return keys.order_by(Airfoil.name, PolarRevision.id).limit(limit + 1)
+
+
 def page_revisions(
     session: Session,
     *,
@@ -575,21 +661,14 @@ def page_revisions(
         On a bad cursor, limit, review state or source kind.
     """
     limit = check_limit(limit)
-
-    def filtered(statement: Any) -> Any:
-        return _revision_filters(
-            statement, airfoil=airfoil, family=family, reynolds=reynolds, surface=surface,
-            review_state=review_state, source_kind=source_kind,
-        )
-
+    filters = {
+        "airfoil": airfoil, "family": family, "reynolds": reynolds, "surface": surface,
+        "review_state": review_state, "source_kind": source_kind,
+    }
     # first the page's ids from the indexes alone (airfoil names, then the listing index
     # per airfoil, in order), then their summary columns by primary key: the planner never
     # gets the chance to scan the revisions table and sort it
-    keys = filtered(select(PolarRevision.id).join(Airfoil))
-    if after is not None:
-        name, revision_id = decode_cursor(after, (str, int))
-        keys = keys.where(keyset_after((Airfoil.name, PolarRevision.id), (name, revision_id)))
-    ids = session.scalars(keys.order_by(Airfoil.name, PolarRevision.id).limit(limit + 1)).all()
+    ids = session.scalars(revision_page_keys(**filters, after=after, limit=limit)).all()
     by_id = {
         row[0]: _summary_of(row)
         for row in session.execute(_summary_select().where(PolarRevision.id.in_(ids)))
@@ -599,7 +678,7 @@ def page_revisions(
     if count:
         total = count_rows(
             session,
-            filtered(select(func.count(PolarRevision.id)).join(Airfoil)),
+            _revision_filters(_listing_from(select(func.count(PolarRevision.id))), **filters),
             ("revisions", airfoil, family, reynolds, surface, review_state, source_kind),
         )
     return _take_page(rows, limit, lambda r: (r.airfoil.name, r.id), total)

@@ -8,7 +8,7 @@ import hmac
 import secrets
 from collections.abc import Sequence
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm import Session
 
@@ -16,6 +16,14 @@ from polarsvc.store._lookup import check_choice, check_name
 from polarsvc.store.audit import Actor, record_event
 from polarsvc.store.errors import Conflict, InvalidValue, NotFound
 from polarsvc.store.models import TOKEN_ROLES, ApiToken, utc_now
+from polarsvc.store.paging import (
+    DEFAULT_PAGE_SIZE,
+    Page,
+    check_limit,
+    count_rows,
+    decode_cursor,
+    take_page,
+)
 
 TOKEN_PREFIX = "psv_"
 """Prefix of every secret, so a leaked one is recognisable (e.g. by secret scanners)."""
@@ -130,3 +138,24 @@ def revoke_token(session: Session, *, name: str, actor: Actor) -> ApiToken:
 def list_tokens(session: Session) -> Sequence[ApiToken]:
     """All tokens by name (revoked and expired ones included)."""
     return session.scalars(select(ApiToken).order_by(ApiToken.name)).all()
+
+
+def page_tokens(
+    session: Session, *, after: str | None = None, limit: int = DEFAULT_PAGE_SIZE
+) -> Page[ApiToken]:
+    """One page of tokens by name (revoked and expired ones included; keyset pagination,
+    :mod:`polarsvc.store.paging`); the total is counted.
+
+    Raises
+    ------
+    InvalidValue
+        On a bad cursor or limit.
+    """
+    limit = check_limit(limit)
+    statement = select(ApiToken)
+    if after is not None:
+        (name,) = decode_cursor(after, (str,))
+        statement = statement.where(ApiToken.name > name)
+    rows = session.scalars(statement.order_by(ApiToken.name).limit(limit + 1)).all()
+    total = count_rows(session, select(func.count(ApiToken.id)), ("tokens",))
+    return take_page(rows, limit, lambda t: (t.name,), total)

@@ -41,6 +41,8 @@ AUDIT_PAGE_LIMIT = 500
 CATALOGUE_FAMILIES = 25
 """Families listed on the catalogue page (the API pages through all of them)."""
 CATALOGUE_BLADES = 200
+DERIVED_SHOWN = 100
+"""Derived tables listed on an airfoil's page under the selected revision (the oldest)."""
 
 
 def url_name(name: str) -> str:
@@ -154,8 +156,8 @@ def add_routes(router: APIRouter) -> None:
             ) + _plot_links(f"/plots/airfoils/{url_name(name)}", ("cl", "cd"), query, ("full",))
             # a fresh transaction: the tables above may have just been cached
             with session_scope(_factory(request), write=False) as fresh:
-                derived = list(
-                    derived_store.derived_using_revision(fresh, revision_id=selected.id)
+                derived = derived_store.page_derived_using_revision(
+                    fresh, revision_id=selected.id, limit=DERIVED_SHOWN
                 )
             provenance = viewdata.provenance_rows(selected)
         return render(

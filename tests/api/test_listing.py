@@ -132,3 +132,86 @@ def test_catalogue_page_rows_come_in_pages_with_sql_summaries(demo_factory):
     assert all(r.n_revisions == 6 and r.surfaces == ["clean", "rough"] for r in whole.rows)
     assert all(len(r.reynolds) == 3 for r in whole.rows)
     assert all(r.n_revisions == 3 and r.surfaces == ["rough"] for r in rough.rows)
+
+
+def test_a_page_of_airfoils_takes_as_many_queries_however_long(demo_client, tokens):
+    """Each airfoil's aliases and family are read for the whole page at once: a page of 7
+    airfoils issues as many SQL statements as a page of 1 (no query per row)."""
+    from sqlalchemy import Engine
+
+    reader = tokens.header("reader")
+    counts = {}
+    demo_client.get("/api/v1/airfoils", headers=reader)  # the total is counted once, kept
+    for limit in (1, 7):
+        statements: list[str] = []
+
+        def record(conn, cursor, statement, parameters, context, executemany,
+                   statements=statements):
+            statements.append(statement)
+
+        event.listen(Engine, "before_cursor_execute", record)
+        try:
+            response = demo_client.get("/api/v1/airfoils", params={"limit": limit},
+                                       headers=reader)
+        finally:
+            event.remove(Engine, "before_cursor_execute", record)
+        assert response.status_code == 200 and len(response.json()) == limit
+        counts[limit] = len(statements)
+    assert counts[7] == counts[1], counts
+
+
+def test_token_pages_visit_every_token_once_by_name(client, tokens):
+    admin = tokens.header("admin")
+    for name in ("zephyr", "alpha-script", "mid-reader", "beta", "omega"):
+        assert client.post("/api/v1/tokens", json={"name": name, "role": "reader"},
+                           headers=admin).status_code == 201
+    assert client.delete("/api/v1/tokens/beta", headers=admin).status_code == 200
+    items, sizes, total = walk(client, "/api/v1/tokens", admin, limit=3)
+    # the fixture's three tokens and the five above (the revoked one still listed), by name
+    expected = sorted(["test-reader", "test-curator", "test-admin", "zephyr", "alpha-script",
+                       "mid-reader", "beta", "omega"])
+    assert [t["name"] for t in items] == expected
+    assert int(total) == 8 and sizes == [3, 3, 2]
+    assert [t["name"] for t in items if t["revoked_at"]] == ["beta"]
+    assert all("secret" not in t and "token_hash" not in t for t in items)
+
+
+def test_used_by_pages_visit_every_derived_table_once_oldest_first(demo_client, tokens):
+    reader = tokens.header("reader")
+    revision = demo_client.get("/api/v1/polars", params={"airfoil": "SKUA-250", "limit": 1},
+                               headers=reader).json()[0]["content_hash"]
+    made = []
+    for path, params in (("resampled", {"step_deg": 0.5}), ("resampled", {"step_deg": 1.0}),
+                         ("resampled", {"step_deg": 2.0}), ("extended", {"step_deg": 1.0}),
+                         ("extended", {"step_deg": 2.0})):
+        response = demo_client.get(f"/api/v1/polars/{revision}/{path}", params=params,
+                                   headers=reader)
+        assert response.status_code == 200 and response.headers["x-polarsvc-stored"] == "yes"
+        made.append(response.json()["recipe_hash"])
+    url = f"/api/v1/polars/{revision[:12]}/used-by"
+    response = demo_client.get(url, params={"limit": 2}, headers=reader)
+    pages = [response]
+    while "next" in response.links:
+        response = demo_client.get(response.links["next"]["url"], headers=reader)
+        pages.append(response)
+    assert all(p.status_code == 200 for p in pages)
+    assert all(p.json()["revision"] == revision for p in pages)
+    assert all(p.headers["x-total-count"] == "5" for p in pages)
+    assert [len(p.json()["derived"]) for p in pages] == [2, 2, 1]
+    # stored in the order they were asked for: the oldest first
+    assert [d["recipe_hash"] for p in pages for d in p.json()["derived"]] == made
+    whole = demo_client.get(url, headers=reader)
+    assert "link" not in whole.headers and len(whole.json()["derived"]) == 5
+
+
+@pytest.mark.parametrize("url", ["/api/v1/tokens", "/api/v1/polars/{h}/used-by"])
+@pytest.mark.parametrize(("params", "field"), [({"limit": 0}, "limit"),
+                                               ({"after": "not-a-cursor"}, "after")])
+def test_new_pages_refuse_a_bad_cursor_or_limit_by_name(demo_client, tokens, url, params,
+                                                        field):
+    admin = tokens.header("admin")
+    revision = demo_client.get("/api/v1/polars", params={"limit": 1},
+                               headers=admin).json()[0]["content_hash"]
+    response = demo_client.get(url.format(h=revision), params=params, headers=admin)
+    assert response.status_code == 422
+    assert field in str(response.json())

@@ -21,6 +21,7 @@ def test_every_service_cache_has_a_byte_bound():
         "RECENT_TABLES": pipeline.RECENT_TABLES,
         "PREPARED_FAMILIES": pipeline.PREPARED_FAMILIES,
         "RESOLUTIONS": pipeline.RESOLUTIONS,
+        "BLADE_INPUTS": pipeline.BLADE_INPUTS,
         "COUNTS": paging.COUNTS,
         "REVISION_TABLES": polar_store.REVISION_TABLES,
     }

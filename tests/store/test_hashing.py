@@ -20,6 +20,8 @@ from polarsvc.hashing import (
     blade_content_hash,
     canonical_array_bytes,
     canonical_json,
+    canonical_result,
+    canonical_table,
     decode_array_bytes,
     polar_content_hash,
     recipe_hash,
@@ -206,6 +208,46 @@ def test_recipe_table_and_blade_hashes() -> None:
     assert blade_content_hash(name="skerry-48", definition={"tip_radius_m": 48.0}) != (
         blade_content_hash(name="skerry-48", definition={"tip_radius_m": 48.5})
     )
+
+
+def test_table_payload_and_hash_match_documented_form() -> None:
+    # independent reconstruction of the module docstring's table form with struct/hashlib:
+    # the payload is the canonical bytes of the angles, then of each column, in order
+    signalling = np.frombuffer(struct.pack("<Q", 0x7FF4000000000001), dtype="<f8")[0]
+    negative_nan = np.frombuffer(struct.pack("<Q", 0xFFF8000000000000), dtype="<f8")[0]
+    alpha = [-180.0, -0.0, 180.0]
+    cl = [[0.5, -0.0, signalling], [math.inf, negative_nan, -1.25]]
+    cd = np.array([[0.1, 0.2, 0.3], [0.4, 0.5, 0.6]], dtype=">f8")  # big-endian input
+
+    def canonical(value: float) -> bytes:
+        if math.isnan(value):
+            return CANONICAL_NAN
+        return struct.pack("<d", 0.0 if value == 0 else value)
+
+    alpha_bytes = b"".join(canonical(v) for v in alpha)
+    cl_bytes = b"".join(canonical(v) for row in cl for v in row)
+    cd_bytes = struct.pack("<6d", 0.1, 0.2, 0.3, 0.4, 0.5, 0.6)
+
+    def digest(shape: str, data: bytes) -> str:
+        header = b'{"dtype":"float64-le","shape":[%s]}\n' % shape.encode()
+        return hashlib.sha256(header + data).hexdigest()
+
+    document = (
+        f'{{"alpha_deg":"{digest("3", alpha_bytes)}","columns":["{digest("2,3", cl_bytes)}",'
+        f'"{digest("2,3", cd_bytes)}"],"format":"polarsvc.table.v1"}}'
+    )
+    content_hash, payload = canonical_table(alpha, cl, cd)
+    assert payload == alpha_bytes + cl_bytes + cd_bytes
+    assert content_hash == hashlib.sha256(document.encode()).hexdigest()
+    assert table_content_hash(alpha, cl, cd) == content_hash
+
+    result_hash, result_payload = canonical_result({"power_w": [1.0, -0.0], "cl": cl})
+    named = (
+        f'{{"arrays":[["power_w","{digest("2", struct.pack("<2d", 1.0, 0.0))}"],'
+        f'["cl","{digest("2,3", cl_bytes)}"]],"format":"polarsvc.result.v1"}}'
+    )
+    assert result_payload == struct.pack("<2d", 1.0, 0.0) + cl_bytes
+    assert result_hash == hashlib.sha256(named.encode()).hexdigest()
 
 
 def test_hashing_is_pure() -> None:

@@ -13,7 +13,7 @@ from polarsvc.aero.errors import ParameterError
 from polarsvc.api import visibility
 from polarsvc.api.deps import Admin, Reader, ReadSession
 from polarsvc.api.responses import json_response, page_response
-from polarsvc.api.schemas import ERROR_RESPONSES, AfterQuery, TokenIn
+from polarsvc.api.schemas import ERROR_RESPONSES, PAGE_SIZE, AfterQuery, LimitQuery, TokenIn
 from polarsvc.store import tokens as token_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import ApiToken
@@ -96,9 +96,18 @@ def create_token(body: TokenIn, request: Request, principal: Admin):
         return json_response({**token_summary(token), "secret": secret}, status_code=201)
 
 
-@router.get("/tokens", summary="List tokens (admin); secrets are never shown")
-def list_tokens(session: ReadSession, _: Admin):
-    return json_response([token_summary(t) for t in token_store.list_tokens(session)])
+@router.get("/tokens", summary="List tokens (admin, one page); secrets are never shown")
+def list_tokens(
+    request: Request, session: ReadSession, _: Admin, limit: LimitQuery = PAGE_SIZE,
+    after: AfterQuery = None,
+):
+    """Tokens by name, revoked and expired ones included. One page per request: follow the
+    ``Link: <...>; rel="next"`` header; ``X-Total-Count`` gives the number of tokens."""
+    page = token_store.page_tokens(session, after=after, limit=limit)
+    return page_response(
+        request, [token_summary(t) for t in page.items], next_cursor=page.next_cursor,
+        total=page.total,
+    )
 
 
 @router.delete("/tokens/{name}", summary="Revoke a token (admin)")

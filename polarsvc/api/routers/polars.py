@@ -6,6 +6,8 @@ from typing import Annotated, Any, Literal
 
 from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from pydantic import WithJsonSchema
+from sqlalchemy import select
+from sqlalchemy.orm import Session, sessionmaker
 from starlette.concurrency import run_in_threadpool
 
 from polarsvc import aero, pipeline, recipes
@@ -17,6 +19,7 @@ from polarsvc.api.responses import (
     FORMATS,
     choose_format,
     json_response,
+    page_headers,
     page_response,
     table_response,
 )
@@ -39,6 +42,7 @@ from polarsvc.formats.metadata import ANGLE_UNITS
 from polarsvc.ingest import UploadedFile, store_uploads
 from polarsvc.provenance import SOURCE_KINDS
 from polarsvc.store import curation
+from polarsvc.store import derived as derived_store
 from polarsvc.store import polars as polar_store
 from polarsvc.store.db import session_scope
 from polarsvc.store.models import REVIEW_STATES, PolarRevision
@@ -288,15 +292,16 @@ def get_polar(content_hash: HashKey, session: ReadSession, principal: Reader):
 @router.get(
     "/polars/{content_hash}/table", responses=TABLE_RESPONSES,
     summary="A revision's table as stored")
-def get_polar_table(
-    content_hash: HashKey, request: Request, session: ReadSession, _: Reader,
-    format: FormatQuery = None,
+async def get_polar_table(
+    content_hash: HashKey, request: Request, _: Reader, format: FormatQuery = None,
 ):
     fmt = choose_format(request, format)
     # the identity and review state are read each time (small, indexed); the table itself
-    # is immutable under its hash and comes from memory after the first request
-    full_hash, airfoil_name, review_state = polar_store.revision_brief(session, content_hash)
-    table = polar_store.table_of(session, full_hash)
+    # is immutable under its hash and comes from memory after the first request. The
+    # database work is one trip to a worker thread (a small read does not pay for several)
+    full_hash, airfoil_name, review_state, table = await run_in_threadpool(
+        _stored_table, request.app.state.session_factory, content_hash
+    )
     columns = {name: values for name, values in table.items() if name != "alpha_deg"}
     meta = {
         "kind": "stored",
@@ -309,6 +314,21 @@ def get_polar_table(
         request, fmt=fmt, content_hash=full_hash, alpha_deg=table["alpha_deg"],
         columns=columns, meta=meta,
     )
+
+
+def _stored_table(
+    factory: sessionmaker[Session], key: str
+) -> tuple[str, str, str, dict[str, Any]]:
+    """The full hash, airfoil name, review state and decoded table of a revision: one
+    indexed read on a connection, and the table from memory (a session reads it from the
+    database the first time)."""
+    with factory.kw["bind"].connect() as connection:
+        full_hash, airfoil_name, review_state = polar_store.revision_brief(connection, key)
+    table = polar_store.REVISION_TABLES.peek(full_hash)
+    if table is None:
+        with session_scope(factory, write=False) as session:
+            table = polar_store.table_of(session, full_hash)
+    return full_hash, airfoil_name, review_state, table
 
 
 GridStep = Annotated[
@@ -499,25 +519,34 @@ def correct_polar(
 
 @router.get(
     "/polars/{content_hash}/used-by",
-    summary="Reverse lineage: the derived tables and blade sets computed from a revision",
+    summary="Reverse lineage: the derived tables and blade sets computed from a revision "
+    "(one page)",
 )
-def used_by(content_hash: HashKey, session: ReadSession, _: Reader):
-    revision = polar_store.get_revision(session, content_hash)
-    from polarsvc.store import derived as derived_store
-
-    rows = derived_store.derived_using_revision(session, revision_id=revision.id)
-    return json_response(
-        {
-            "revision": revision.content_hash,
-            "derived": [
-                {
-                    "kind": row.kind,
-                    "recipe_hash": row.recipe_hash,
-                    "content_hash": row.content_hash,
-                    "blade": row.blade.name if row.blade else None,
-                    "created_at": row.created_at.isoformat(),
-                }
-                for row in rows
-            ],
-        }
+def used_by(
+    content_hash: HashKey, request: Request, session: ReadSession, _: Reader,
+    limit: LimitQuery = PAGE_SIZE, after: AfterQuery = None,
+):
+    """The revision's full hash and one page of the cached tables computed from it, oldest
+    first (``derived``). Follow the ``Link: <...>; rel="next"`` header for the next page;
+    ``X-Total-Count`` gives the number of such tables."""
+    revision_hash, _airfoil, _state = polar_store.revision_brief(session, content_hash)
+    revision_id = session.scalar(
+        select(PolarRevision.id).where(PolarRevision.content_hash == revision_hash)
     )
+    page = derived_store.page_derived_using_revision(
+        session, revision_id=revision_id, after=after, limit=limit
+    )
+    body = {
+        "revision": revision_hash,
+        "derived": [
+            {
+                "kind": use.kind,
+                "recipe_hash": use.recipe_hash,
+                "content_hash": use.content_hash,
+                "blade": use.blade,
+                "created_at": use.created_at.isoformat(),
+            }
+            for use in page.items
+        ],
+    }
+    return json_response(body, headers=page_headers(request, page.next_cursor, page.total))
