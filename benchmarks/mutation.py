@@ -12,7 +12,9 @@ then the script prints, per module and overall, the mutants killed (a test faile
 (counted as detected), survived (no test failed) and not checked (budget spent), with the
 score ``detected / (detected + survived)``. ``mutmut results`` and ``mutmut show <name>``
 inspect the survivors afterwards. ``--resume`` keeps the results of an earlier run
-(``mutants/``); by default the run starts afresh. ``--retest-survivors`` (implies
+(``mutants/``) and checks only the mutants without a result; by default the run starts
+afresh. The tests run with the hypothesis profile ``mutation`` (20 examples per property,
+``tests/conftest.py``) to keep the run within hours. ``--retest-survivors`` (implies
 ``--resume``) runs only the surviving mutants of the given modules again, against the current
 tests (after tests were added to kill them).
 """
@@ -20,7 +22,9 @@ tests (after tests were added to kill them).
 from __future__ import annotations
 
 import argparse
+import math
 import os
+import random
 import shutil
 import signal
 import subprocess
@@ -32,7 +36,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 DEFAULT_MODULES = ("rotation", "characteristics", "extension")
 ALL_MODULES = ("rotation", "characteristics", "extension", "interpolation", "blade",
-               "resample", "polar", "errors")
+               "resample", "polar", "quality", "errors")
 DETECTED = ("killed", "timeout")
 
 
@@ -46,8 +50,10 @@ def mutmut() -> list[str]:
 def run_bounded(command: list[str], seconds: float) -> None:
     """Run ``command`` in its own process group; past ``seconds`` stop the whole group (mutmut
     and the mutant runs it forked), keeping what was recorded so far."""
+    environment = {**os.environ, "POLARSVC_HYPOTHESIS_PROFILE": "mutation"}
     process = subprocess.Popen(command, cwd=ROOT, stdout=subprocess.DEVNULL,
-                               stderr=subprocess.DEVNULL, start_new_session=True)
+                               stderr=subprocess.DEVNULL, start_new_session=True,
+                               env=environment)
     try:
         process.wait(timeout=seconds)
     except subprocess.TimeoutExpired:
@@ -83,6 +89,19 @@ def states() -> dict[str, Counter]:
     return counts
 
 
+def interval(detected: int, checked: int, unchecked: int) -> str:
+    """For a module checked on a sample: the 95 % Wilson interval of its score (Wilson 1927,
+    J. Am. Stat. Assoc. 22; the sample is drawn uniformly, so the score of the sample estimates
+    that of the module)."""
+    if not unchecked or not checked:
+        return ""
+    z = 1.959964
+    p = detected / checked
+    centre = (p + z * z / (2 * checked)) / (1 + z * z / checked)
+    half = z * math.sqrt(p * (1 - p) / checked + z * z / (4 * checked**2)) / (1 + z * z / checked)
+    return f"  sample: 95 % interval {100 * (centre - half):.1f}-{100 * (centre + half):.1f}%"
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--modules", nargs="+", default=list(DEFAULT_MODULES),
@@ -91,6 +110,10 @@ def main() -> None:
                         help="wall-clock budget of all runs together [min]")
     parser.add_argument("--children", type=int, default=2, help="parallel mutant runs")
     parser.add_argument("--resume", action="store_true", help="keep earlier results")
+    parser.add_argument("--sample", type=int, default=0,
+                        help="with --resume: check at most this many unchecked mutants per "
+                             "module, drawn uniformly at random")
+    parser.add_argument("--seed", type=int, default=20261202, help="seed of --sample")
     parser.add_argument("--retest-survivors", action="store_true",
                         help="run only the survivors of the modules again (keeps results)")
     args = parser.parse_args()
@@ -112,10 +135,17 @@ def main() -> None:
         if left <= 0:
             break
         start = time.monotonic()
-        run_bounded(
-            [*mutmut(), "run", "--max-children", str(args.children), f"polarsvc.aero.{module}*"],
-            left,
-        )
+        if args.resume:
+            # mutmut reruns every mutant named on its command line, so a resumed run names
+            # only the mutants that have no result yet
+            targets = [name for owner, name, state in results()
+                       if owner == module and state == "not checked"]
+            if args.sample and len(targets) > args.sample:
+                targets = sorted(random.Random(args.seed).sample(targets, args.sample))
+        else:
+            targets = [f"polarsvc.aero.{module}*"]
+        if targets:
+            run_bounded([*mutmut(), "run", "--max-children", str(args.children), *targets], left)
         spent[module] = time.monotonic() - start
     counts = states()
     total: Counter = Counter()
@@ -129,7 +159,8 @@ def main() -> None:
         score = f"{100.0 * detected / checked:.1f}%" if checked else "-"
         unchecked = sum(v for k, v in c.items() if k not in (*DETECTED, "survived"))
         print(f"{module:<16}{c['killed']:>8}{c['timeout']:>9}{c['survived']:>10}"
-              f"{unchecked:>11}{score:>8}{spent.get(module, 0.0) / 60.0:>9.1f}")
+              f"{unchecked:>11}{score:>8}{spent.get(module, 0.0) / 60.0:>9.1f}"
+              f"{interval(detected, checked, unchecked)}")
     detected = sum(total[s] for s in DETECTED)
     checked = detected + total["survived"]
     if checked:

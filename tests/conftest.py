@@ -14,6 +14,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
+from hypothesis import settings
 from sqlalchemy import Engine, create_engine, make_url, text
 from sqlalchemy.orm import Session, sessionmaker
 from sqlalchemy.pool import NullPool
@@ -21,6 +22,11 @@ from sqlalchemy.pool import NullPool
 from polarsvc.store.db import make_engine, make_session_factory, upgrade_database
 
 POSTGRES_URL_ENV = "POLARSVC_TEST_POSTGRES_URL"
+
+# Mutation runs (benchmarks/mutation.py) run the aero tests once per mutant: fewer generated
+# examples per property keep them within hours; everyone else gets hypothesis' defaults.
+settings.register_profile("mutation", max_examples=20, deadline=None)
+settings.load_profile(os.environ.get("POLARSVC_HYPOTHESIS_PROFILE", "default"))
 
 
 @pytest.fixture(

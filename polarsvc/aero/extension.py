@@ -19,7 +19,12 @@ Construction (angles in deg; ``a_lo..a_hi`` is the measured range):
    with ``cl = -k cl(0)``: the table is periodic and continuous through 180 deg.
 3. A table that already reaches beyond +-90 deg gets, outside its data, the offset that makes
    the curve meet its end values, decaying linearly along the circle to zero at the nearer of
-   +-90 deg not covered by data.
+   +-90 deg not covered by data; the drag offset also returns to zero at 180 deg (when the
+   data do not reach it), so the reverse-flow drag there is kept and a drag offset carried
+   round the back cannot take the drag below zero. Where a large offset would still carry the
+   extension drag below the smallest measured drag, it is held there, and the history lists
+   those angles under ``drag_floor`` (common practice, no source: drag never falls below
+   its measured minimum).
 4. **Pitching moment** (when the table has one): centre-of-pressure rule
    ``cm = -cn (x_cp - 1/4)`` with ``cn = cl cos a + cd sin a`` and ``x_cp = 1/2 - cos(a) / 4``
    (0.25 c attached, 0.5 c broadside, 0.75 c trailing edge first; Hoerner 1965, "Fluid-Dynamic
@@ -90,6 +95,9 @@ cd(180) of a few hundredths, Sheldahl & Klimas 1981, SAND80-2114, from memory). 
 the section's own cd(0)."""
 
 CYLINDER_THICKNESS = 1.0
+
+RIGHT_ANGLES_DEG = (90.0, -90.0)
+"""Where the offsets of a table reaching past one of +-90 deg return to zero (step 3)."""
 
 EXTENSION_MARGIN = 1e-6
 """Extension rows closer than this fraction of the step to a data end are left out."""
@@ -317,6 +325,11 @@ def _full_circle(
     return np.where(mirrored, -k * cl, cl), cd
 
 
+def _covered(angle: float, a_lo: float, a_hi: float) -> bool:
+    """Whether the data range holds ``angle`` (or the same direction 360 deg away)."""
+    return any(a_lo <= angle + turn <= a_hi for turn in (-360.0, 0.0, 360.0))
+
+
 def _arc_offset(
     ext_alpha: FloatArray,
     a_lo: float,
@@ -324,20 +337,19 @@ def _arc_offset(
     offset_hi: float,
     offset_lo: float,
     *,
-    zero_at_right_angles: bool,
+    zero_at_deg: tuple[float, ...],
 ) -> FloatArray:
     """Offset along the circle outside the data: ``offset_hi`` at the upper data end,
-    ``offset_lo`` at the lower one, linear in between, optionally through zero at +-90 deg
-    where those lie outside the data."""
+    ``offset_lo`` at the lower one, linear in between, through zero at each angle of
+    ``zero_at_deg`` that lies outside the data."""
     length = 360.0 - (a_hi - a_lo)
     s = np.mod(ext_alpha - a_hi, 360.0)
     knots = [(0.0, offset_hi), (length, offset_lo)]
-    if zero_at_right_angles:
-        knots += [
-            (float(np.mod(angle - a_hi, 360.0)), 0.0)
-            for angle in (90.0, -90.0)
-            if not (a_lo <= angle <= a_hi)
-        ]
+    knots += [
+        (float(np.mod(angle - a_hi, 360.0)), 0.0)
+        for angle in zero_at_deg
+        if not _covered(angle, a_lo, a_hi)
+    ]
     knots.sort()
     return np.interp(s, [k[0] for k in knots], [k[1] for k in knots])
 
@@ -488,12 +500,12 @@ def extend_full_range(
         "measured_range_deg": [a_lo, a_hi],
     }
     if cylinder:
-        ext_cl = _arc_offset(ext_alpha, a_lo, a_hi, cl[-1], cl[0], zero_at_right_angles=False)
-        ext_cd = _arc_offset(ext_alpha, a_lo, a_hi, cd[-1], cd[0], zero_at_right_angles=False)
+        ext_cl = _arc_offset(ext_alpha, a_lo, a_hi, cl[-1], cl[0], zero_at_deg=())
+        ext_cd = _arc_offset(ext_alpha, a_lo, a_hi, cd[-1], cd[0], zero_at_deg=())
         ext_cm = None
         if cm is not None:
             ext_cm = _arc_offset(
-                ext_alpha, a_lo, a_hi, cm[-1], cm[0], zero_at_right_angles=False
+                ext_alpha, a_lo, a_hi, cm[-1], cm[0], zero_at_deg=()
             )
         report.update(method="cylinder", requested_method=method)
     else:
@@ -511,12 +523,17 @@ def extend_full_range(
         model_cd, end_cd = both_cd[:-2], both_cd[-2:]
         ext_cl = model_cl + _arc_offset(
             ext_alpha, a_lo, a_hi, cl[-1] - end_cl[1], cl[0] - end_cl[0],
-            zero_at_right_angles=True,
+            zero_at_deg=RIGHT_ANGLES_DEG,
         )
         ext_cd = model_cd + _arc_offset(
             ext_alpha, a_lo, a_hi, cd[-1] - end_cd[1], cd[0] - end_cd[0],
-            zero_at_right_angles=True,
+            zero_at_deg=(*RIGHT_ANGLES_DEG, 180.0),
         )
+        floor = float(cd.min())
+        floored = ext_cd < floor
+        if floored.any():
+            ext_cd = np.where(floored, floor, ext_cd)
+            report["drag_floor"] = {"cd": floor, "angles_deg": ext_alpha[floored].tolist()}
         ext_cm = None
         if cm is not None:
             both_cm = centre_of_pressure_moment(
@@ -527,7 +544,7 @@ def extend_full_range(
             end_cm = both_cm[-2:]
             ext_cm = both_cm[:-2] + _arc_offset(
                 ext_alpha, a_lo, a_hi, cm[-1] - end_cm[1], cm[0] - end_cm[0],
-                zero_at_right_angles=True,
+                zero_at_deg=RIGHT_ANGLES_DEG,
             )
         report.update(
             method=method,

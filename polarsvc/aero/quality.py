@@ -274,7 +274,8 @@ def _side_flags(polar: Polar, alpha0: float) -> list[QualityFlag]:
     below = int(np.count_nonzero(polar.alpha_deg < alpha0))
     above = int(np.count_nonzero(polar.alpha_deg > alpha0))
     side = "below" if below < above else "above"
-    where = (f"{min(below, above)} rows {side} the zero-lift angle {alpha0:.2f} deg (table "
+    shown = round(alpha0, 2) + 0.0  # no "-0.00" for a zero-lift angle a rounding below 0
+    where = (f"{min(below, above)} rows {side} the zero-lift angle {shown:.2f} deg (table "
              f"spans {polar.alpha_deg[0]:g}..{polar.alpha_deg[-1]:g} deg)")
     if min(below, above) == 0 or not (polar.alpha_deg[0] < 0.0 < polar.alpha_deg[-1]):
         return [QualityFlag(

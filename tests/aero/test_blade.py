@@ -187,3 +187,54 @@ def test_station_reynolds_worked_by_hand() -> None:
     #   = 3.704323e6
     re = station_reynolds([20.0], [2.0], 10.0, 12.0)
     assert re[0] == pytest.approx(3.704323e6, rel=1e-6)
+
+
+def test_augment_then_extend_keeps_the_extension_settings_and_the_moment() -> None:
+    # With the measured range augmented first and then extended, the extension's own rules
+    # still hold at every lifting station: Viterna-Corrigan gives cd(+-90) = cd_max (Viterna &
+    # Corrigan 1982, NASA CP-2230) for the cd_max asked, and the moment column is served.
+    from polarsvc.aero.rotation import FadeSettings
+
+    blade = stations()
+    tables = build_blade_tables(members(), blade, rotor_radius_m=ROTOR_RADIUS_M,
+                                tip_speed_ratio=TSR, rotation_order="augment-then-extend",
+                                cd_max=1.5)
+    lifting = blade.thickness < 1.0
+    at_90 = np.flatnonzero(np.isin(tables.alpha_deg, [-90.0, 90.0]))
+    np.testing.assert_allclose(tables.cd[np.ix_(lifting, at_90)], 1.5, rtol=0, atol=1e-12)
+    assert tables.cm is not None and np.all(np.isfinite(tables.cm))
+    # Nothing changes below the zero-lift angle unless asked (rotation module docstring): the
+    # station at r = 15 m (t/c 0.35) against the same table without augmentation.
+    plain = build_blade_tables(members(), blade, rotor_radius_m=ROTOR_RADIUS_M,
+                               tip_speed_ratio=TSR, rotation_order="augment-then-extend",
+                               cd_max=1.5, rotation_model=None)
+    both = build_blade_tables(members(), blade, rotor_radius_m=ROTOR_RADIUS_M,
+                              tip_speed_ratio=TSR, rotation_order="augment-then-extend",
+                              cd_max=1.5, fade=FadeSettings(negative_side=True))
+    s = 4
+    below = (tables.alpha_deg > -10.0) & (tables.alpha_deg < -3.0)
+    np.testing.assert_array_equal(tables.cl[s, below], plain.cl[s, below])
+    assert np.any(both.cl[s, below] != plain.cl[s, below])
+
+
+def test_blade_refusals_name_their_parameter() -> None:
+    blade = stations()
+    with pytest.raises(ParameterError) as info:
+        build_blade_tables(members(), blade, rotor_radius_m=0.0)
+    assert str(info.value) == "parameter 'rotor_radius_m': must be positive, got 0"
+    from polarsvc.aero import UnknownMethodError
+
+    with pytest.raises(UnknownMethodError) as unknown:
+        build_blade_tables(members(), blade, rotor_radius_m=ROTOR_RADIUS_M,
+                           thickness_method="cubic")
+    assert str(unknown.value) == (
+        "thickness_method='cubic' is not known; valid names: linear, pchip")
+    with pytest.raises(UnknownMethodError) as order:
+        build_blade_tables(members(), blade, rotor_radius_m=ROTOR_RADIUS_M,
+                           rotation_order="sideways")
+    assert order.value.parameter == "rotation_order" and order.value.value == "sideways"
+    assert "extend-then-augment" in order.value.valid
+    with pytest.raises(ParameterError) as missing:
+        build_blade_tables(members(), {"radius_m": [3.0, 4.0]}, rotor_radius_m=ROTOR_RADIUS_M)
+    assert missing.value.parameter == "stations"
+    assert str(missing.value).startswith("parameter 'stations': missing chord_m")

@@ -77,3 +77,35 @@ def test_grid_errors() -> None:
     with pytest.raises(ParameterError) as info:
         uniform_grid(math.nan)
     assert "nan" not in str(info.value).lower()
+
+
+def test_error_texts_pinned() -> None:
+    # The exact wording of each typed error (what an API client and a curator read).
+    from polarsvc.aero import OutOfRangeError, PolarValidationError, UnknownMethodError
+    from polarsvc.aero.errors import show_value
+
+    assert show_value("abc") == "a non-numeric value"
+    assert show_value(math.nan) == "undefined (not a number)"
+    assert show_value(2.5e6) == "2.5e+06"
+    both = PolarValidationError("bad", row=3, field="cd")
+    assert (str(both), both.detail, both.row, both.field) == ("row 3, field 'cd': bad", "bad",
+                                                              3, "cd")
+    assert str(PolarValidationError("bad", row=3)) == "row 3: bad"
+    assert str(PolarValidationError("bad", field="cd")) == "field 'cd': bad"
+    assert str(PolarValidationError("bad")) == "bad"
+    named = UnknownMethodError("model", "sideways", ("snel", "du-selig"))
+    assert (named.parameter, named.value, named.valid) == ("model", "sideways",
+                                                           ("snel", "du-selig"))
+    assert str(named) == "model='sideways' is not known; valid names: snel, du-selig"
+    assert str(UnknownMethodError("model", 3.0, ("snel",))) == (
+        "model='3' is not known; valid names: snel")
+    outside = OutOfRangeError("reynolds", 9e6, 1e6, 3e6, subject="airfoil 'skua-210'")
+    assert (outside.value, outside.low, outside.high) == (9e6, 1e6, 3e6)
+    assert str(outside) == (
+        "reynolds=9e+06 lies outside the data range of airfoil 'skua-210' [1e+06, 3e+06]; "
+        "pass clamp=True to use the nearest member (the result records the clamp)")
+    assert str(OutOfRangeError("thickness", 0.5, 0.2, 0.4)).startswith(
+        "thickness=0.5 lies outside the data range [0.2, 0.4]; ")
+    with pytest.raises(ParameterError) as raised:
+        resample(BASE, step_deg="fine")  # type: ignore[arg-type]
+    assert str(raised.value) == "parameter 'step_deg': must be a number"
