@@ -238,3 +238,28 @@ def test_blade_refusals_name_their_parameter() -> None:
         build_blade_tables(members(), {"radius_m": [3.0, 4.0]}, rotor_radius_m=ROTOR_RADIUS_M)
     assert missing.value.parameter == "stations"
     assert str(missing.value).startswith("parameter 'stations': missing chord_m")
+
+
+def test_blade_recipe_and_station_report_keys() -> None:
+    # The recipe is the record a stored blade set is recomputed from: every setting, with the
+    # documented defaults of build_blade_tables (written out here from its signature).
+    tables = build_blade_tables(members(), stations(), rotor_radius_m=ROTOR_RADIUS_M,
+                                tip_speed_ratio=TSR)
+    assert tables.recipe == {
+        "grid_step_deg": 0.5, "surface": "clean", "extension_method": "viterna",
+        "aspect_ratio": None, "cd_max": None, "trailing_edge_lift_factor": 0.7,
+        "extension_step_deg": 1.0, "trailing_edge_drag": "reverse-flow", "members": 12,
+        "rotation_model": "snel", "thickness_method": "linear", "clamp": False,
+        "rotor_radius_m": 48.0, "tip_speed_ratio": 7.0,
+        "rotation_order": "extend-then-augment",
+        "fade": {"start_deg": None, "end_deg": None, "start_offset_deg": -5.0,
+                 "end_offset_deg": 25.0, "negative_side": False},
+    }
+    report = tables.stations[5]
+    assert sorted(report) == [
+        "dynamic_stall", "measured_range_deg", "radius_m", "reynolds_clamped",
+        "reynolds_requested", "reynolds_used", "reynolds_weights", "rotation", "station",
+        "thickness_clamped", "thickness_requested", "thickness_used", "thickness_weights"]
+    # the synthetic members are measured on -20..25 deg (tests/aero/synthetic.py defaults)
+    assert report["measured_range_deg"] == [-20.0, 25.0]
+    assert report["radius_m"] == pytest.approx(stations().radius_m[5])
