@@ -20,6 +20,7 @@ from typing import Any
 import numpy as np
 
 from polarsvc import rotor
+from polarsvc.aero.blade import ISA_DENSITY_KG_M3, ISA_VISCOSITY_PA_S
 from polarsvc.aero.errors import ParameterError, UnknownMethodError
 
 ROTOR_CAUTION = rotor.CAUTION
@@ -91,11 +92,12 @@ RESULT_ARRAYS = {
 }
 
 
-KINEMATIC_VISCOSITY_M2_S = 1.46e-5
-"""Kinematic viscosity of air at ISA sea level [m^2/s] for the station Reynolds numbers met
-over the power curve: 1.4607e-5 m^2/s in the sea-level row of the U.S. Standard Atmosphere
-1976 tables (NOAA, NASA, USAF; the ISA of ISO 2533:1975 agrees there), rounded (from
-memory). The blade-set tables use rho / mu = 1.225 / 1.789e-5 = 1.4604e-5 m^2/s."""
+KINEMATIC_VISCOSITY_M2_S = ISA_VISCOSITY_PA_S / ISA_DENSITY_KG_M3
+"""Kinematic viscosity of air at ISA sea level [m^2/s], mu / rho = 1.789e-5 / 1.225 =
+1.4604e-5, from the same air properties the blade-set tables are prepared with
+(:data:`polarsvc.aero.blade.ISA_VISCOSITY_PA_S`, :data:`~polarsvc.aero.blade.ISA_DENSITY_KG_M3`),
+so the Reynolds numbers met and those prepared for are compared on one footing (the U.S.
+Standard Atmosphere 1976 sea-level row gives 1.4607e-5 m^2/s; from memory)."""
 
 REYNOLDS_FACTOR_LIMIT = 2.0
 """A station is listed in the warnings when the Reynolds numbers met over the power curve

@@ -16,13 +16,14 @@ from tests.rotor.demo import demo_blade, demo_tables
 def test_reynolds_number_by_hand():
     # U = 8 m/s, lambda = 6, r/R = 0.5 (lambda_r = 3), a = 0.25, a' = 0.02, c = 2 m:
     # W = 8 sqrt(0.75^2 + (3 x 1.02)^2) = 8 sqrt(0.5625 + 9.3636) = 25.20457 m/s,
-    # Re = 25.20457 x 2 / 1.46e-5 = 3.45268e6 (hand calculation)
+    # nu = 1.789e-5 / 1.225 = 1.460408e-5 m^2/s (ISA sea level, ISO 2533, from memory),
+    # Re = 25.20457 x 2 / 1.460408e-5 = 3.45172e6 (hand calculation)
     re = performance.reynolds_met(
         np.array([8.0]), np.array([6.0]), np.array([10.0]), 20.0, np.array([2.0]),
         np.array([[0.25]]), np.array([[0.02]]),
     )
     assert re.shape == (1, 1)
-    assert re[0, 0] == pytest.approx(3.45268e6, rel=1e-5)
+    assert re[0, 0] == pytest.approx(3.45172e6, rel=1e-5)
 
 
 def test_kinematic_viscosity_of_the_standard_atmosphere():
@@ -47,9 +48,9 @@ def test_demo_hub_station_by_hand():
     # the hub station (r = 1.6 m, c = 3.5 m) carries no load (Prandtl hub factor 0), so
     # W = sqrt(U^2 + (Omega r)^2). Lowest at cut-in, 3 m/s, at the minimum rotor speed
     # 6 rpm (the optimum would ask 5.5 rpm): Omega r = 0.62832 x 1.6 = 1.00531 m/s,
-    # W = sqrt(9 + 1.01065) = 3.16396 m/s, Re = 3.16396 x 3.5 / 1.46e-5 = 7.5848e5
+    # W = sqrt(9 + 1.01065) = 3.16396 m/s, Re = 3.16396 x 3.5 / 1.460408e-5 = 7.5827e5
     assert arrays["rotor_speed_rpm"][0] == pytest.approx(6.0)
-    assert arrays["reynolds_min"][0] == pytest.approx(7.5848e5, rel=1e-4)
+    assert arrays["reynolds_min"][0] == pytest.approx(7.5827e5, rel=1e-4)
     # prepared at the blade's operating point, 10 m/s and 13 rpm, ISA rho 1.225 kg/m^3,
     # mu 1.789e-5 Pa s: W = sqrt(100 + 2.17817^2) = 10.23447 m/s,
     # Re = 1.225 x 10.23447 x 3.5 / 1.789e-5 = 2.45278e6 (hand calculation)
