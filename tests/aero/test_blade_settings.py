@@ -378,3 +378,36 @@ def test_measured_range_and_range_checks_follow_the_members_used() -> None:
                            rotor_radius_m=ROTOR_RADIUS_M, rotation_model=None)
     assert raised.value.subject == "airfoil 'GULL-30' (t/c 0.3)"
     assert raised.value.value == 2e6
+
+
+@pytest.mark.parametrize("order", ["extend-then-augment", "augment-then-extend"])
+def test_augmentation_applies_the_reported_factors_in_both_orders(order: str) -> None:
+    # Where the fade weight is 1 (between the zero-lift angle and stall - 3 deg here) the
+    # augmented table is cl + f (cl_lin - cl) where cl_lin = cl_alpha (alpha - alpha0)
+    # exceeds cl, and cd + g (cd - cd(alpha0)) (Snel et al. 1994; Du & Selig 1998; rotation
+    # module docstring), with f and g as reported, alpha0 = -2 deg (the synthetic member's)
+    # and the slope given (7.0 per rad, above the member's own 6.25, so cl_lin > cl there).
+    fade = FadeSettings(start_offset_deg=-3.0, end_offset_deg=20.0)
+    options = {"rotor_radius_m": ROTOR_RADIUS_M, "rotation_order": order}
+    tables = build_blade_tables(_family(), _stations(), rotation_model="du-selig",
+                                tip_speed_ratio=7.0, cl_alpha_per_rad=7.0, fade=fade,
+                                **options)
+    plain = build_blade_tables(_family(), _stations(), rotation_model=None, **options)
+    cd_at_alpha0 = plain.cd[:, _at(plain, -2.0)]
+    for s, report in enumerate(tables.stations):
+        rotation = report["rotation"]
+        stall = rotation["stall_deg"]
+        assert (rotation["fade_start_deg"], rotation["fade_end_deg"]) == pytest.approx(
+            (stall - 3.0, stall + 20.0))
+        f, g = rotation["lift_factor"], rotation["drag_factor"]
+        if s < 2:  # at c/r 5e-5 Du-Selig's lift factor is clipped to 0
+            assert f > 0.0 and g != 0.0  # and it lowers the drag here (g < 0)
+        inside = (tables.alpha_deg > -2.0) & (tables.alpha_deg <= stall - 3.0)
+        alpha = tables.alpha_deg[inside]
+        cl_2d, cd_2d = plain.cl[s, inside], plain.cd[s, inside]
+        cl_lin = 7.0 * np.radians(alpha + 2.0)
+        assert np.all(cl_lin > cl_2d)
+        np.testing.assert_allclose(tables.cl[s, inside], cl_2d + f * (cl_lin - cl_2d),
+                                   rtol=0, atol=1e-12)
+        expected_cd = cd_2d + g * np.maximum(cd_2d - cd_at_alpha0[s], 0.0)
+        np.testing.assert_allclose(tables.cd[s, inside], expected_cd, rtol=0, atol=1e-12)

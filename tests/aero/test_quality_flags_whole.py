@@ -269,3 +269,88 @@ def test_errors_of_keeps_the_error_level_only() -> None:
     warning = QualityFlag("few-rows", "warning", "m")
     assert errors_of([warning, error, warning]) == [error]
     assert errors_of([warning]) == []
+
+
+def _rows(alpha: list[float], cl_per_deg: float = 0.01, alpha0: float = 0.0) -> Polar:
+    angles = np.asarray(alpha, dtype=float)
+    return Polar(angles, cl_per_deg * (angles - alpha0), np.full(angles.size, 0.01),
+                 assume_degrees=True)
+
+
+@pytest.mark.parametrize("alpha", [[-40.0, -30.0, -20.0, 5.0, 30.0, 40.0],
+                                   [-40.0, -30.0, -5.0, 20.0, 30.0, 40.0]])
+def test_the_search_window_includes_its_ends(alpha: list[float]) -> None:
+    # two rows within -20..20 deg, ends included: the lift line is attempted, and fails for
+    # want of rows within 5 deg of the crossing at 0 deg
+    flags = table_flags(_rows(alpha))
+    assert [(f.code, f.level, f.field) for f in flags] == [
+        ("few-rows", "warning", "alpha_deg"), ("lift-slope", "error", "cl")]
+    assert flags[1].message.startswith("no lift line can be fitted: ")
+
+
+def test_without_a_lift_line_the_sides_are_counted_about_zero() -> None:
+    # one row within the search window (0.5 deg); about 0 deg one row lies below
+    flags = table_flags(_rows([-40.0, 0.5, 25.0, 30.0, 35.0, 40.0]))
+    assert flags[1:] == [
+        QualityFlag("lift-slope", "error",
+                    "fewer than 2 rows within -20..20 deg: no lift line can be fitted",
+                    field="alpha_deg"),
+        QualityFlag("one-sided", "warning",
+                    "1 rows below the zero-lift angle 0.00 deg (table spans -40..40 deg): the "
+                    "negative-stall side rests on one row", field="alpha_deg"),
+    ]
+
+
+def test_sides_of_the_zero_lift_angle_and_of_zero() -> None:
+    # alpha0 = -2 deg on -2..7 deg: nothing below it although the table spans 0 deg
+    assert table_flags(_rows([-2.0 + k for k in range(10)], 0.1, -2.0)) == [QualityFlag(
+        "one-sided", "error",
+        "0 rows below the zero-lift angle -2.00 deg (table spans -2..7 deg): the table cannot "
+        "be extended to -180..180 deg", field="alpha_deg")]
+    # alpha0 = 2.5 deg on 0..9 deg: three rows below it, but no data below 0 deg
+    assert table_flags(_rows([float(k) for k in range(10)], 0.1, 2.5)) == [QualityFlag(
+        "one-sided", "error",
+        "3 rows below the zero-lift angle 2.50 deg (table spans 0..9 deg): the table cannot "
+        "be extended to -180..180 deg", field="alpha_deg")]
+    # alpha0 = -2.5 deg on -9..0 deg: three rows above it, no data above 0 deg
+    assert table_flags(_rows([-9.0 + k for k in range(10)], 0.1, -2.5)) == [QualityFlag(
+        "one-sided", "error",
+        "3 rows above the zero-lift angle -2.50 deg (table spans -9..0 deg): the table cannot "
+        "be extended to -180..180 deg", field="alpha_deg")]
+    # -8..1 deg around alpha0 = -3 deg: five rows each side and data on both sides of 0
+    assert table_flags(_rows([-8.0 + k for k in range(10)], 0.1, -3.0)) == []
+
+
+def test_zero_lift_angle_in_messages_to_two_decimals() -> None:
+    # 1.234 deg is shown as 1.23; -0.004 deg as 0.00 (not -0.00)
+    one_row_below = [-1.0 + k for k in range(10)]
+    for alpha0, shown in ((1.234, "1.23"), (-0.004, "0.00")):
+        rows = [a + alpha0 + 0.5 for a in one_row_below]
+        (flag,) = table_flags(_rows(rows, 0.1, alpha0))
+        assert flag.message.startswith(f"1 rows below the zero-lift angle {shown} deg")
+
+
+def test_a_shallow_rising_slope_is_outside_the_band() -> None:
+    # 0.01 per deg = 0.573 per rad = 0.09 x 2 pi: rising, but below 0.25 x 2 pi
+    slope = 0.01 * 180.0 / math.pi
+    assert table_flags(_table(cl=0.01 * ALPHA)) == [QualityFlag(
+        "lift-slope", "error",
+        "lift slope 0.573 per rad (0.09 x 2 pi) lies outside 0.25..2 x 2 pi", field="cl",
+        value=pytest.approx(slope))]
+
+
+def test_a_step_next_to_the_table_end_is_not_a_spike() -> None:
+    # rows 18 and 19 raised together: +0.25 each off their lines, neither isolated
+    cd = np.full(ALPHA.size, 0.01)
+    cd[[18, 19]] = 0.51
+    assert table_flags(_table(cd=cd)) == []
+
+
+def test_mach_difference_in_the_message() -> None:
+    # Mach 0.6 against 0: 1 / sqrt(1 - 0.36) = 1.25, a difference of 25.0 % (by hand)
+    from polarsvc.aero.quality import context_flags
+
+    member = Polar(ALPHA, 0.1 * ALPHA, np.full(ALPHA.size, 0.01), mach=0.6, reynolds=1e6)
+    (flag,) = context_flags(member, in_family=True, family_machs=[0.0])
+    assert flag.message == ("Mach 0.6 against 0 in the family: the compressibility factors "
+                            "differ by 25.0 % (more than 2 %)")
