@@ -380,16 +380,19 @@ def test_measured_range_and_range_checks_follow_the_members_used() -> None:
     assert raised.value.value == 2e6
 
 
+@pytest.mark.parametrize("model", ["du-selig", "chaviaropoulos-hansen"])
 @pytest.mark.parametrize("order", ["extend-then-augment", "augment-then-extend"])
-def test_augmentation_applies_the_reported_factors_in_both_orders(order: str) -> None:
+def test_augmentation_applies_the_reported_factors_in_both_orders(order: str,
+                                                                  model: str) -> None:
     # Where the fade weight is 1 (between the zero-lift angle and stall - 3 deg here) the
     # augmented table is cl + f (cl_lin - cl) where cl_lin = cl_alpha (alpha - alpha0)
-    # exceeds cl, and cd + g (cd - cd(alpha0)) (Snel et al. 1994; Du & Selig 1998; rotation
-    # module docstring), with f and g as reported, alpha0 = -2 deg (the synthetic member's)
+    # exceeds cl, and cd + g (cd - cd(alpha0)) (Snel et al. 1994; Du & Selig 1998;
+    # Chaviaropoulos & Hansen 2000, whose factors depend on the twist; rotation module
+    # docstring), with f and g as reported, alpha0 = -2 deg (the synthetic member's)
     # and the slope given (7.0 per rad, above the member's own 6.25, so cl_lin > cl there).
     fade = FadeSettings(start_offset_deg=-3.0, end_offset_deg=20.0)
     options = {"rotor_radius_m": ROTOR_RADIUS_M, "rotation_order": order}
-    tables = build_blade_tables(_family(), _stations(), rotation_model="du-selig",
+    tables = build_blade_tables(_family(), _stations(), rotation_model=model,
                                 tip_speed_ratio=7.0, cl_alpha_per_rad=7.0, fade=fade,
                                 **options)
     plain = build_blade_tables(_family(), _stations(), rotation_model=None, **options)
@@ -401,7 +404,7 @@ def test_augmentation_applies_the_reported_factors_in_both_orders(order: str) ->
             (stall - 3.0, stall + 20.0))
         f, g = rotation["lift_factor"], rotation["drag_factor"]
         if s < 2:  # at c/r 5e-5 Du-Selig's lift factor is clipped to 0
-            assert f > 0.0 and g != 0.0  # and it lowers the drag here (g < 0)
+            assert f > 0.0 and g != 0.0  # Du-Selig lowers the drag here (g < 0)
         inside = (tables.alpha_deg > -2.0) & (tables.alpha_deg <= stall - 3.0)
         alpha = tables.alpha_deg[inside]
         cl_2d, cd_2d = plain.cl[s, inside], plain.cd[s, inside]
@@ -411,3 +414,29 @@ def test_augmentation_applies_the_reported_factors_in_both_orders(order: str) ->
                                    rtol=0, atol=1e-12)
         expected_cd = cd_2d + g * np.maximum(cd_2d - cd_at_alpha0[s], 0.0)
         np.testing.assert_allclose(tables.cd[s, inside], expected_cd, rtol=0, atol=1e-12)
+
+
+def test_a_zero_weight_neighbour_does_not_bracket_a_station() -> None:
+    # t/c 0.30 exactly: GULL-21 (Re 1e6..2e6) carries weight 0, so Re 3e6 (outside its
+    # range, inside GULL-30's single 3e6) is served from GULL-30 alone
+    family = prepare_family(
+        [_named(0.21, 1e6), _named(0.21, 2e6), _named(0.30, 3e6)],
+        airfoils=["GULL-21", "GULL-21", "GULL-30"])
+    station = BladeStations([5.0, 6.0], [1.0, 1.0], [0.0, 0.0], [0.30, 0.30], [3e6, 3e6])
+    tables = build_blade_tables(family, station, rotor_radius_m=ROTOR_RADIUS_M,
+                                rotation_model=None)
+    assert tables.stations[0]["reynolds_used"] == {"0.3": 3e6}
+    assert tables.stations[1]["thickness_weights"] == {"0.3": 1.0}
+
+
+def test_one_thickness_with_pchip_and_without_dynamic_stall_inputs() -> None:
+    # PCHIP over a single thickness is that thickness's table (nothing to interpolate)
+    linear = build_blade_tables(_family(), _stations(), rotor_radius_m=ROTOR_RADIUS_M)
+    pchip = build_blade_tables(_family(), _stations(), rotor_radius_m=ROTOR_RADIUS_M,
+                               thickness_method="pchip")
+    np.testing.assert_array_equal(pchip.cl, linear.cl)
+    bare = build_blade_tables(_family(), _stations(), rotor_radius_m=ROTOR_RADIUS_M,
+                              dynamic_stall=False)
+    assert bare.dynamic_stall is None
+    assert all("dynamic_stall" not in report for report in bare.stations)
+    assert all("dynamic_stall" in report for report in linear.stations)
